@@ -1,0 +1,165 @@
+//! RFC 9457 problem documents (`application/problem+json`).
+
+use axum::http::{header, HeaderValue, StatusCode};
+use axum::response::{IntoResponse, Response};
+use serde::Serialize;
+
+/// One invalid field: a JSON Pointer (RFC 6901) into the request and what is wrong with it.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct FieldError {
+    pub pointer: String,
+    pub message: String,
+}
+
+impl FieldError {
+    pub fn new(pointer: impl Into<String>, message: impl Into<String>) -> Self {
+        FieldError { pointer: pointer.into(), message: message.into() }
+    }
+}
+
+/// A problem document. `type` is a stable relative URI `/problems/<slug>`.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Problem {
+    #[serde(rename = "type")]
+    pub kind: String,
+    pub title: String,
+    pub status: u16,
+    pub detail: String,
+    #[serde(skip_serializing_if = "Vec::is_empty")]
+    pub errors: Vec<FieldError>,
+    #[serde(skip)]
+    pub retry_after: Option<u64>,
+}
+
+impl Problem {
+    pub fn new(status: StatusCode, slug: &str, title: &str, detail: impl Into<String>) -> Self {
+        Problem {
+            kind: format!("/problems/{slug}"),
+            title: title.to_string(),
+            status: status.as_u16(),
+            detail: detail.into(),
+            errors: Vec::new(),
+            retry_after: None,
+        }
+    }
+
+    pub fn slug(&self) -> &str {
+        self.kind.trim_start_matches("/problems/")
+    }
+
+    pub fn malformed_json(detail: impl Into<String>) -> Self {
+        Problem::new(StatusCode::BAD_REQUEST, "malformed-json", "The body is not a JSON object", detail)
+    }
+
+    pub fn body_too_large(limit: usize) -> Self {
+        Problem::new(
+            StatusCode::PAYLOAD_TOO_LARGE,
+            "body-too-large",
+            "The body is too large",
+            format!("the body exceeds this server's limit of {limit} bytes; send fewer rows, aggregate them as {{\"values\": [...], \"counts\": [...]}}, or split the work into several requests"),
+        )
+    }
+
+    pub fn unsupported_media_type() -> Self {
+        Problem::new(
+            StatusCode::UNSUPPORTED_MEDIA_TYPE,
+            "unsupported-media-type",
+            "Unsupported media type",
+            "send the body as JSON with the header Content-Type: application/json",
+        )
+    }
+
+    /// Every invalid field at once.
+    pub fn invalid(errors: Vec<FieldError>) -> Self {
+        let n = errors.len();
+        let mut p = Problem::new(
+            StatusCode::UNPROCESSABLE_ENTITY,
+            "invalid-request",
+            "The request is invalid",
+            if n == 1 {
+                format!("{}: {}", errors[0].pointer_or_root(), errors[0].message)
+            } else {
+                format!("{n} fields are invalid; see errors for each, with a JSON Pointer into the request")
+            },
+        );
+        p.errors = errors;
+        p
+    }
+
+    pub fn work_limit(estimate: f64, limit: f64) -> Self {
+        Problem::new(
+            StatusCode::UNPROCESSABLE_ENTITY,
+            "work-limit",
+            "The request needs more work than this server allows",
+            format!(
+                "the estimated work is {estimate:.3e} row-draws, above this server's limit of {limit:.3e}; lower resamples, send fewer rows (or aggregate them), or choose a statistic with an analytic standard error for studentized intervals"
+            ),
+        )
+    }
+
+    pub fn data_mismatch() -> Self {
+        Problem::new(
+            StatusCode::CONFLICT,
+            "data-mismatch",
+            "The token belongs to other data",
+            "this token was issued for different data; send the same data as the request that returned it, or send the parameters instead of the token",
+        )
+    }
+
+    pub fn time_limit(done: u64, requested: u64, limit_ms: u64) -> Self {
+        Problem::new(
+            StatusCode::SERVICE_UNAVAILABLE,
+            "time-limit",
+            "The request ran past its time limit",
+            format!(
+                "only {done} of {requested} resamples finished within {limit_ms} ms; raise time_limit_ms (up to the server's maximum), lower resamples, or set \"on_time_limit\": \"partial\" to get the result over the resamples done"
+            ),
+        )
+    }
+
+    pub fn internal(detail: impl Into<String>) -> Self {
+        Problem::new(StatusCode::INTERNAL_SERVER_ERROR, "internal", "Internal error", detail)
+    }
+
+    pub fn not_found(path: &str) -> Self {
+        Problem::new(StatusCode::NOT_FOUND, "not-found", "No such route", format!("{path} is not a route of this server; GET /v1/catalog lists what it does"))
+    }
+}
+
+impl FieldError {
+    fn pointer_or_root(&self) -> &str {
+        if self.pointer.is_empty() {
+            "the request"
+        } else {
+            &self.pointer
+        }
+    }
+}
+
+impl IntoResponse for Problem {
+    fn into_response(self) -> Response {
+        let status = StatusCode::from_u16(self.status).unwrap_or(StatusCode::INTERNAL_SERVER_ERROR);
+        let body = serde_json::to_vec(&self).expect("a problem serialises");
+        let mut resp = (status, body).into_response();
+        resp.headers_mut().insert(header::CONTENT_TYPE, HeaderValue::from_static("application/problem+json"));
+        if let Some(secs) = self.retry_after {
+            resp.headers_mut().insert(header::RETRY_AFTER, HeaderValue::from(secs));
+        }
+        resp
+    }
+}
+
+/// Escape one reference token of a JSON Pointer (RFC 6901 §3: `~` → `~0`, `/` → `~1`).
+pub fn escape_token(s: &str) -> String {
+    s.replace('~', "~0").replace('/', "~1")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn pointer_tokens_are_escaped_per_rfc_6901() {
+        assert_eq!(escape_token("a/b~c"), "a~1b~0c");
+    }
+}

@@ -1,0 +1,66 @@
+//! The command line: `bandsaw serve` (the default) and `bandsaw interval`, which runs the same
+//! engine in-process on a request file.
+
+use std::io::Read;
+use std::sync::atomic::AtomicBool;
+use std::sync::Arc;
+use std::time::Instant;
+
+use clap::{Parser, Subcommand};
+
+use crate::config::Config;
+
+#[derive(Debug, Parser)]
+#[command(name = "bandsaw", version, about = "Bootstrap intervals for a data array: an HTTP service and an in-process command line.")]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Option<Command>,
+    #[command(flatten)]
+    pub config: Config,
+}
+
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Serve the HTTP API (the default).
+    Serve,
+    /// Compute one interval in-process: read a request body (the JSON of POST /v1/interval)
+    /// from a file or standard input and print the response JSON.
+    Interval {
+        /// The request file; "-" or none reads standard input.
+        #[arg(long, short)]
+        input: Option<String>,
+    },
+}
+
+/// `bandsaw interval`: returns the process exit code (0 success, 1 a problem, 2 unreadable input).
+pub fn interval(config: &Config, input: Option<&str>) -> i32 {
+    let mut body = Vec::new();
+    let read = match input {
+        None | Some("-") => std::io::stdin().read_to_end(&mut body).map(|_| ()),
+        Some(path) => std::fs::read(path).map(|b| body = b),
+    };
+    if let Err(e) = read {
+        eprintln!("bandsaw: cannot read the request: {e}");
+        return 2;
+    }
+    let settings = config.settings();
+    let pool = match rayon::ThreadPoolBuilder::new().num_threads(config.thread_count()).build() {
+        Ok(p) => p,
+        Err(e) => {
+            eprintln!("bandsaw: cannot start the compute threads: {e}");
+            return 2;
+        }
+    };
+    let started = Instant::now();
+    let result = pool.install(|| crate::api::interval::compute(&body, &settings, Arc::new(AtomicBool::new(false)), started));
+    match result {
+        Ok(v) => {
+            println!("{}", serde_json::to_string_pretty(&v).expect("JSON"));
+            0
+        }
+        Err(p) => {
+            println!("{}", serde_json::to_string_pretty(&p).expect("JSON"));
+            1
+        }
+    }
+}

@@ -1,0 +1,67 @@
+//! Sampling with replacement.
+
+use rand::Rng;
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Binomial, Distribution};
+
+/// n rows drawn uniformly with replacement: `w[i]` becomes how often row i was drawn.
+/// `w` must hold n zeros.
+pub fn draw_rows(rng: &mut ChaCha8Rng, w: &mut [f64]) {
+    let n = w.len();
+    for _ in 0..n {
+        w[rng.random_range(0..n)] += 1.0;
+    }
+}
+
+/// A multinomial draw of `size` items over units with masses `mass` (total `total`), by
+/// conditional binomials: unit j receives Binomial(remaining, mass_j / remaining mass). It takes
+/// O(units) binomial variates (BTPE, Kachitvichyanukul & Schmeiser 1988, via `rand_distr`)
+/// instead of O(size) uniform draws, which is what lets aggregated data with large counts
+/// resample in O(distinct values).
+pub fn multinomial(rng: &mut ChaCha8Rng, size: u64, mass: &[f64], total: f64, w: &mut [f64]) {
+    let mut remaining = size;
+    let mut remaining_mass = total;
+    for (j, m) in mass.iter().enumerate() {
+        if remaining == 0 {
+            w[j] = 0.0;
+            continue;
+        }
+        let p = m / remaining_mass;
+        let k = if p >= 1.0 {
+            remaining
+        } else if p <= 0.0 {
+            0
+        } else {
+            Binomial::new(remaining, p).expect("0 < p < 1").sample(rng)
+        };
+        w[j] = k as f64;
+        remaining -= k;
+        remaining_mass -= m;
+    }
+    // Rounding in the running mass can leave a few items unplaced; they belong to the last unit
+    // with mass (p would have been 1 there in exact arithmetic).
+    if remaining > 0 {
+        if let Some(j) = mass.iter().rposition(|m| *m > 0.0) {
+            w[j] += remaining as f64;
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::engine::rng::replicate_stream;
+
+    #[test]
+    fn draws_add_up_to_the_size() {
+        let mut rng = replicate_stream(1, 0);
+        let mut w = vec![0.0; 17];
+        draw_rows(&mut rng, &mut w);
+        assert_eq!(w.iter().sum::<f64>(), 17.0);
+        let mass = [3.0, 0.0, 1000.0, 2.0];
+        let mut w = vec![0.0; 4];
+        multinomial(&mut rng, 1005, &mass, 1005.0, &mut w);
+        assert_eq!(w.iter().sum::<f64>(), 1005.0);
+        assert_eq!(w[1], 0.0);
+    }
+}
