@@ -1,0 +1,273 @@
+//! Exact properties of the engine: determinism across thread counts, prefixes, equivariance,
+//! sane answers on degenerate data, and calibrated Monte Carlo errors.
+
+use bandsaw::engine::data::Sample;
+use bandsaw::engine::interval::Method;
+use bandsaw::engine::run::{run, Include, Job, OnTimeLimit, Outcome, Resamples};
+use bandsaw::engine::scheme::SchemeSpec;
+use bandsaw::engine::statistic::StatisticSpec;
+
+const ALL: [Method; 5] = [Method::Percentile, Method::Basic, Method::Normal, Method::Bca, Method::Studentized];
+
+/// Invented: basket sizes (items) of 40 checkouts.
+const BASKETS: [f64; 40] = [
+    3., 1., 7., 2., 2., 12., 4., 1., 5., 3., 2., 9., 1., 6., 3., 2., 18., 4., 2., 1., 3., 5., 2., 8., 1., 4., 2., 3., 11., 2., 1., 6., 3., 2., 4., 7., 1.,
+    2., 5., 3.,
+];
+
+fn on_threads(threads: usize, job: &Job) -> Outcome {
+    rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap().install(|| run(job).unwrap())
+}
+
+fn job(sample: Sample, stat: StatisticSpec, b: u64) -> Job {
+    let mut j = Job::new(sample, stat, 424242);
+    j.resamples = Resamples::Fixed(b);
+    j.methods = ALL.to_vec();
+    j.levels = vec![0.8, 0.95];
+    j.include = Include { histogram: true, cdf: true, replicates: true };
+    j
+}
+
+fn columns() -> Sample {
+    let x: Vec<f64> = (0..60).map(|i| (i as f64 * 0.37).sin() * 10.0 + i as f64).collect();
+    let y: Vec<f64> = x.iter().enumerate().map(|(i, v)| 2.0 * v + ((i * 7919) % 13) as f64).collect();
+    Sample::Columns { names: vec!["visits".into(), "revenue".into()], columns: vec![x, y] }
+}
+
+#[test]
+fn results_are_identical_on_one_and_two_threads() {
+    let cases = vec![
+        job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 5000),
+        job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Median, 3000), // nested studentized
+        job(Sample::Aggregated { values: vec![1., 2., 5., 9.], counts: vec![40, 25, 9, 2] }, StatisticSpec::Quantile { p: 0.9 }, 3000),
+        job(columns(), StatisticSpec::Correlation { x: "visits".into(), y: "revenue".into(), spearman: true }, 2000),
+        job(columns(), StatisticSpec::Ratio { numerator: "revenue".into(), denominator: "visits".into() }, 2000),
+        {
+            let mut j = job(Sample::Column(BASKETS.to_vec()), StatisticSpec::TrimmedMean { trim: 0.1 }, 2000);
+            j.scheme = SchemeSpec::Bayesian;
+            j
+        },
+    ];
+    for j in &cases {
+        let one = on_threads(1, j);
+        let two = on_threads(2, j);
+        assert_eq!(one, two, "{:?}", j.statistic);
+    }
+}
+
+#[test]
+fn a_shorter_run_is_a_prefix_of_a_longer_one() {
+    let short = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 1234)).unwrap();
+    let long = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 5000)).unwrap();
+    assert_eq!(short.replicates.as_ref().unwrap()[..], long.replicates.as_ref().unwrap()[..1234]);
+}
+
+#[test]
+fn auto_equals_a_fixed_run_of_the_size_it_chose() {
+    let mut a = job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 0);
+    a.resamples = Resamples::Auto { target: 0.05 };
+    let auto = run(&a).unwrap();
+    assert!(auto.resamples >= 1000 && auto.resamples.is_power_of_two() || auto.resamples % 1000 == 0, "{}", auto.resamples);
+    let fixed = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, auto.resamples)).unwrap();
+    assert_eq!(auto.intervals, fixed.intervals);
+    assert_eq!(auto.standard_error, fixed.standard_error);
+    // And it met its target: every endpoint's Monte Carlo error at most 5 % of the standard error.
+    for iv in &auto.intervals {
+        assert!(iv.endpoints.lower_mc_error <= 0.05 * auto.standard_error && iv.endpoints.upper_mc_error <= 0.05 * auto.standard_error);
+    }
+}
+
+#[test]
+fn a_partial_result_is_the_full_result_of_its_prefix() {
+    let mut j = job(Sample::Column((0..3000).map(|i| ((i * 7) % 101) as f64).collect()), StatisticSpec::Median, 1_000_000);
+    j.methods = vec![Method::Percentile, Method::Bca];
+    j.include = Include::default();
+    j.deadline = Some(std::time::Instant::now() + std::time::Duration::from_millis(60));
+    j.on_time_limit = OnTimeLimit::Partial;
+    let partial = run(&j).unwrap();
+    assert!(!partial.complete && partial.resamples < 1_000_000);
+    let mut f = j.clone();
+    f.deadline = None;
+    f.resamples = Resamples::Fixed(partial.resamples);
+    let full = run(&f).unwrap();
+    assert_eq!(partial.intervals, full.intervals);
+    assert_eq!(partial.standard_error, full.standard_error);
+}
+
+fn with(sample_x: Vec<f64>, stat: StatisticSpec) -> Outcome {
+    run(&job(Sample::Column(sample_x), stat, 3000)).unwrap()
+}
+
+#[test]
+fn shifting_the_data_shifts_location_intervals() {
+    let c = 1000.25;
+    for stat in [StatisticSpec::Mean, StatisticSpec::Median, StatisticSpec::Quantile { p: 0.8 }, StatisticSpec::TrimmedMean { trim: 0.2 }] {
+        let a = with(BASKETS.to_vec(), stat.clone());
+        let b = with(BASKETS.iter().map(|v| v + c).collect(), stat.clone());
+        // Same seed, same resamples: only rounding of the shifted values differs (1e-9 of the
+        // magnitude ~1000 is far above double rounding, far below any statistical effect).
+        let close = |x: f64, y: f64| (x - y).abs() < 1e-9 * y.abs().max(1.0);
+        assert!(close(a.estimate + c, b.estimate), "{stat:?}");
+        assert!(close(a.standard_error, b.standard_error), "{stat:?}: {} vs {}", a.standard_error, b.standard_error);
+        for (ia, ib) in a.intervals.iter().zip(&b.intervals) {
+            assert!(close(ia.endpoints.lower + c, ib.endpoints.lower), "{stat:?} {:?}", ia.method);
+            assert!(close(ia.endpoints.upper + c, ib.endpoints.upper), "{stat:?} {:?}", ia.method);
+        }
+    }
+}
+
+#[test]
+fn scaling_the_data_scales_the_intervals() {
+    // Scaling by a power of two is exact in binary floating point, so percentile and basic
+    // endpoints scale bit for bit; methods that go through Φ, powers or square roots agree to
+    // 1e-12.
+    for (stat, power) in [
+        (StatisticSpec::Mean, 1),
+        (StatisticSpec::Median, 1),
+        (StatisticSpec::StdDev { ddof: 1 }, 1),
+        (StatisticSpec::Mad { normal_scale: true }, 1),
+        (StatisticSpec::Iqr, 1),
+        (StatisticSpec::Variance { ddof: 0 }, 2),
+    ] {
+        let k = 2f64.powi(power);
+        let a = with(BASKETS.to_vec(), stat.clone());
+        let b = with(BASKETS.iter().map(|v| v * 2.0).collect(), stat.clone());
+        assert_eq!(a.estimate * k, b.estimate, "{stat:?}");
+        for (ia, ib) in a.intervals.iter().zip(&b.intervals) {
+            match ia.method {
+                Method::Percentile | Method::Basic => {
+                    assert_eq!(ia.endpoints.lower * k, ib.endpoints.lower, "{stat:?} {:?}", ia.method);
+                    assert_eq!(ia.endpoints.upper * k, ib.endpoints.upper, "{stat:?} {:?}", ia.method);
+                }
+                _ => {
+                    let close = |x: f64, y: f64| (x - y).abs() <= 1e-12 * y.abs().max(1e-300);
+                    assert!(close(ia.endpoints.lower * k, ib.endpoints.lower), "{stat:?} {:?}", ia.method);
+                    assert!(close(ia.endpoints.upper * k, ib.endpoints.upper), "{stat:?} {:?}", ia.method);
+                }
+            }
+        }
+    }
+}
+
+fn assert_all_finite(o: &Outcome, what: &str) {
+    let mut nums = vec![o.estimate, o.standard_error, o.standard_error_mc_error, o.bias, o.bias_mc_error, o.bias_corrected_estimate];
+    nums.extend([o.diagnostics.z0, o.diagnostics.replicate_skewness, o.diagnostics.acceleration.unwrap_or(0.0)]);
+    for iv in &o.intervals {
+        nums.extend([iv.endpoints.lower, iv.endpoints.upper, iv.endpoints.lower_mc_error, iv.endpoints.upper_mc_error]);
+    }
+    if let Some(h) = &o.histogram {
+        nums.extend(h.edges.iter().copied());
+        nums.extend(h.mass.iter().copied());
+    }
+    if let Some(c) = &o.cdf {
+        nums.extend(c.values.iter().chain(&c.probabilities).copied());
+    }
+    assert!(nums.iter().all(|v| v.is_finite()), "{what}: non-finite number in {o:?}");
+}
+
+#[test]
+fn constant_data_gives_zero_width_intervals_and_a_warning() {
+    let stats = [
+        StatisticSpec::Mean,
+        StatisticSpec::Median,
+        StatisticSpec::Quantile { p: 0.95 },
+        StatisticSpec::TrimmedMean { trim: 0.1 },
+        StatisticSpec::Variance { ddof: 1 },
+        StatisticSpec::StdDev { ddof: 0 },
+        StatisticSpec::Mad { normal_scale: false },
+        StatisticSpec::Iqr,
+        StatisticSpec::GeometricMean,
+        StatisticSpec::CoefficientOfVariation,
+        StatisticSpec::Proportion,
+    ];
+    for stat in stats {
+        let o = run(&job(Sample::Column(vec![1.0; 30]), stat.clone(), 500)).unwrap();
+        assert_all_finite(&o, &format!("{stat:?}"));
+        assert_eq!(o.standard_error, 0.0, "{stat:?}");
+        for iv in &o.intervals {
+            assert_eq!(iv.endpoints.lower, o.estimate, "{stat:?} {:?}", iv.method);
+            assert_eq!(iv.endpoints.upper, o.estimate, "{stat:?} {:?}", iv.method);
+        }
+        assert!(o.diagnostics.warnings.iter().any(|w| w.code == "constant_data"), "{stat:?}");
+    }
+}
+
+#[test]
+fn tiny_and_lumpy_samples_give_finite_answers_with_warnings() {
+    for x in [vec![3.0, 4.0], vec![1.0, 1.0, 1.0, 2.0], vec![0.0, 0.0, 0.0, 1.0, 0.0, 0.0]] {
+        for stat in [StatisticSpec::Mean, StatisticSpec::Median, StatisticSpec::Mad { normal_scale: false }, StatisticSpec::StdDev { ddof: 0 }] {
+            let o = run(&job(Sample::Column(x.clone()), stat.clone(), 400)).unwrap();
+            assert_all_finite(&o, &format!("{stat:?} on {x:?}"));
+            let codes: Vec<&str> = o.diagnostics.warnings.iter().map(|w| w.code).collect();
+            assert!(codes.contains(&"small_sample"), "{stat:?} on {x:?}: {codes:?}");
+            assert!(codes.contains(&"few_distinct_replicates"), "{stat:?} on {x:?}: {codes:?}");
+        }
+    }
+}
+
+#[test]
+fn diagnostics_flag_extremes_skew_bias_tails_and_serial_correlation() {
+    let codes = |o: &Outcome| o.diagnostics.warnings.iter().map(|w| w.code).collect::<Vec<_>>();
+    // A 0.99 quantile of 60 values reads the extremes.
+    let x: Vec<f64> = (0..60).map(|i| (i as f64).powf(1.5)).collect();
+    let o = with(x.clone(), StatisticSpec::Quantile { p: 0.99 });
+    assert!(codes(&o).contains(&"extreme_quantile"));
+    // One huge value among 20 ones: the resampled geometric mean is 2^k, k ~ Binomial(20, 1/20)
+    // copies of it drawn, a strongly skewed and upward-biased replicate distribution.
+    let mut heavy = vec![1.0; 20];
+    heavy[7] = 2f64.powi(20);
+    let o = with(heavy, StatisticSpec::GeometricMean);
+    assert!(codes(&o).contains(&"skewed_replicates"), "{:?}", codes(&o));
+    // The plug-in variance of n values has bootstrap bias −σ̂²/n against a standard error of
+    // about σ̂²·√(2/n) (for light tails): 1/√(2n) = 0.32 standard errors for n = 5.
+    let o = with(vec![1.0, 2.0, 3.0, 4.0, 5.0], StatisticSpec::Variance { ddof: 0 });
+    assert!(codes(&o).contains(&"large_bias"), "{:?} bias {} se {}", codes(&o), o.bias, o.standard_error);
+    // 200 resamples leave 5 replicates in each tail of a 95 % interval.
+    let o = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 200)).unwrap();
+    assert!(codes(&o).contains(&"too_few_resamples"));
+    // A trending series, in time order, is serially correlated.
+    let trend: Vec<f64> = (0..100).map(|i| i as f64 + ((i * 37) % 11) as f64).collect();
+    let o = with(trend, StatisticSpec::Mean);
+    assert!(codes(&o).contains(&"serial_correlation"));
+    // Independent-looking data raises none of these.
+    let o = with(BASKETS.to_vec(), StatisticSpec::Median);
+    for c in ["extreme_quantile", "too_few_resamples", "serial_correlation", "constant_data"] {
+        assert!(!codes(&o).contains(&c), "{c} on baskets: {:?}", codes(&o));
+    }
+}
+
+#[test]
+fn reported_monte_carlo_errors_match_the_spread_across_seeds() {
+    // 200 independent runs of B = 1000 on one sample: the standard deviation of each endpoint
+    // across runs is what lower_mc_error estimates. An sd from 200 runs has relative standard
+    // error 1/√(2·199) = 5 %, so the mean reported error must lie within 4 × 5 % = 20 % of it.
+    let x: Vec<f64> = (0..30).map(|i| ((i * 2654435761u64 as usize) % 1000) as f64 / 100.0).collect();
+    let runs = 200;
+    let mut lower = vec![Vec::new(); 3];
+    let mut reported = [0.0f64; 3];
+    let mut ses = Vec::new();
+    let mut se_mc = 0.0;
+    for seed in 0..runs {
+        let mut j = Job::new(Sample::Column(x.clone()), StatisticSpec::Mean, 1000 + seed);
+        j.resamples = Resamples::Fixed(1000);
+        j.methods = vec![Method::Percentile, Method::Normal, Method::Bca];
+        let o = run(&j).unwrap();
+        for k in 0..3 {
+            lower[k].push(o.intervals[k].endpoints.lower);
+            reported[k] += o.intervals[k].endpoints.lower_mc_error / runs as f64;
+        }
+        ses.push(o.standard_error);
+        se_mc += o.standard_error_mc_error / runs as f64;
+    }
+    let sd = |v: &[f64]| {
+        let m = v.iter().sum::<f64>() / v.len() as f64;
+        (v.iter().map(|a| (a - m) * (a - m)).sum::<f64>() / (v.len() - 1) as f64).sqrt()
+    };
+    for k in 0..3 {
+        let empirical = sd(&lower[k]);
+        let ratio = reported[k] / empirical;
+        assert!((0.8..1.2).contains(&ratio), "method {k}: reported {} vs empirical {empirical}", reported[k]);
+    }
+    let ratio = se_mc / sd(&ses);
+    assert!((0.8..1.2).contains(&ratio), "standard error: reported {se_mc} vs empirical {}", sd(&ses));
+}

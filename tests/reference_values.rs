@@ -1,0 +1,161 @@
+//! The engine against published and exact values (see ../shared/REFERENCES.md for sources).
+//!
+//! Monte Carlo tolerances: a bootstrap standard error from B replicates has relative standard
+//! deviation √((κ − 1)/(4B)), κ the replicate kurtosis (≈ 1/√(2B) for near-normal replicates;
+//! common practice). Each tolerance below is at least 4 such standard deviations, written next
+//! to its assertion.
+
+use bandsaw::engine::data::Sample;
+use bandsaw::engine::interval::Method;
+use bandsaw::engine::run::{run, Job, Outcome, Resamples};
+use bandsaw::engine::scheme::SchemeSpec;
+use bandsaw::engine::statistic::StatisticSpec;
+use statrs::distribution::{Binomial, DiscreteCDF};
+
+fn job(sample: Sample, stat: StatisticSpec, b: u64, seed: u64) -> Job {
+    let mut j = Job::new(sample, stat, seed);
+    j.resamples = Resamples::Fixed(b);
+    j.methods = vec![Method::Percentile];
+    j
+}
+
+fn plugin_var(x: &[f64]) -> f64 {
+    let n = x.len() as f64;
+    let m = x.iter().sum::<f64>() / n;
+    x.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / n
+}
+
+/// Invented: seconds a nightly data export took, 20 nights.
+const EXPORT_SECONDS: [f64; 20] =
+    [41.2, 38.7, 45.1, 39.9, 52.3, 40.4, 37.8, 44.6, 43.0, 61.7, 39.1, 42.8, 40.0, 47.5, 38.2, 44.1, 41.9, 55.0, 40.7, 43.3];
+
+/// Law school data, Efron & Tibshirani (1993), Table 3.1.
+fn law_school() -> Sample {
+    let lsat = vec![576., 635., 558., 578., 666., 580., 555., 661., 651., 605., 653., 575., 545., 572., 594.];
+    let gpa = vec![3.39, 3.30, 2.81, 3.03, 3.44, 3.07, 3.00, 3.43, 3.36, 3.13, 3.12, 2.74, 2.76, 2.88, 2.96];
+    Sample::Columns { names: vec!["lsat".into(), "gpa".into()], columns: vec![lsat, gpa] }
+}
+
+fn rel_se_of_se(o: &Outcome, kurtosis_bound: f64) -> f64 {
+    ((kurtosis_bound - 1.0) / (4.0 * o.resamples as f64)).sqrt()
+}
+
+#[test]
+fn exact_enumeration_gives_the_ideal_standard_error_of_the_mean() {
+    // Efron & Tibshirani (1993) ch. 5: the ideal bootstrap variance of the mean is σ̂²/n with the
+    // plug-in σ̂². Exact enumeration has no Monte Carlo error, so this is an identity (1e-12).
+    let x = EXPORT_SECONDS[..8].to_vec();
+    let mut j = job(Sample::Column(x.clone()), StatisticSpec::Mean, 0, 1);
+    j.resamples = Resamples::Exact;
+    let o = run(&j).unwrap();
+    assert_eq!(o.resamples, 6435); // C(15, 8), REFERENCES.md
+    let want = (plugin_var(&x) / 8.0).sqrt();
+    assert!((o.standard_error - want).abs() < 1e-12 * want, "{} vs {want}", o.standard_error);
+    assert!(o.bias.abs() < 1e-12, "the mean is unbiased under the bootstrap: {}", o.bias);
+    assert!(o.intervals.iter().all(|iv| iv.endpoints.lower_mc_error == 0.0 && iv.endpoints.upper_mc_error == 0.0));
+}
+
+#[test]
+fn sampled_standard_error_of_the_mean_converges_to_sigma_over_root_n() {
+    let x = EXPORT_SECONDS.to_vec();
+    let o = run(&job(Sample::Column(x.clone()), StatisticSpec::Mean, 100_000, 11)).unwrap();
+    let want = (plugin_var(&x) / 20.0).sqrt();
+    // Replicate means of 20 skewed values: kurtosis below 4, so the relative MC sd of the
+    // standard error is at most √(3/(4B)) = 0.27 %; 4 of them is 1.1 %.
+    let tol = 4.0 * rel_se_of_se(&o, 4.0) * want;
+    assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
+    // The engine's own Monte Carlo error of the standard error should be of that size.
+    assert!(o.standard_error_mc_error > 0.0 && o.standard_error_mc_error < tol);
+}
+
+#[test]
+fn proportion_standard_error_is_binomial() {
+    // REFERENCES.md: the resampled count is Binomial(n, p̂), so se = √(p̂(1 − p̂)/n) exactly for
+    // the ideal bootstrap. 40 conversions out of 130 visits (invented).
+    let mut x = vec![0.0; 130];
+    for v in x.iter_mut().take(40) {
+        *v = 1.0;
+    }
+    let p: f64 = 40.0 / 130.0;
+    let want = (p * (1.0 - p) / 130.0).sqrt();
+    let o = run(&job(Sample::Column(x.clone()), StatisticSpec::Proportion, 100_000, 5)).unwrap();
+    // Binomial(130, 0.31) proportions are near normal (kurtosis 3 − 0.02): relative MC sd
+    // √(2/(4B)) = 0.22 %; tolerance 4 of them (using κ ≤ 3.1 to be safe).
+    let tol = 4.0 * rel_se_of_se(&o, 3.1) * want;
+    assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
+    // Aggregated form of the same data: same distribution of replicates, drawn by binomials.
+    let agg = Sample::Aggregated { values: vec![0.0, 1.0], counts: vec![90, 40] };
+    let o2 = run(&job(agg, StatisticSpec::Proportion, 100_000, 5)).unwrap();
+    assert!((o2.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o2.standard_error);
+}
+
+#[test]
+fn bayesian_bootstrap_variance_of_the_mean_is_sigma_squared_over_n_plus_1() {
+    // Rubin (1981): under Dirichlet(1,…,1) weights the posterior variance of the mean is
+    // σ̂²/(n + 1) (plug-in σ̂²).
+    let x = EXPORT_SECONDS.to_vec();
+    let mut j = job(Sample::Column(x.clone()), StatisticSpec::Mean, 100_000, 9);
+    j.scheme = SchemeSpec::Bayesian;
+    let o = run(&j).unwrap();
+    let want = (plugin_var(&x) / 21.0).sqrt();
+    let tol = 4.0 * rel_se_of_se(&o, 4.0) * want; // as for iid: kurtosis below 4, 1.1 %
+    assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
+}
+
+#[test]
+fn law_school_correlation_and_its_standard_error() {
+    // Efron & Tibshirani (1993) §3 and Table 3.1: r = 0.7764; the bootstrap standard error is
+    // 0.1333 (numpy, B = 200 000, REFERENCES.md) and about 0.132 at B = 3200 (the book, from
+    // memory).
+    let stat = StatisticSpec::Correlation { x: "lsat".into(), y: "gpa".into(), spearman: false };
+    let o = run(&job(law_school(), stat, 200_000, 3)).unwrap();
+    assert!((o.estimate - 0.7764).abs() < 5e-5, "{}", o.estimate);
+    // Replicate correlations are skewed with kurtosis about 5 (measured here: see the engine's
+    // own standard_error_mc_error); relative MC sd √(4/(4B)) = 0.22 % for each of our run and
+    // numpy's, so 4·√2·0.0003 = 0.0017, plus 0.00005 for the 4-digit rounding.
+    assert!(o.standard_error_mc_error < 0.0004, "{}", o.standard_error_mc_error);
+    assert!((o.standard_error - 0.1333).abs() < 0.0018, "{}", o.standard_error);
+    // Against the book's B = 3200 figure: its MC sd is √(4/12800)·0.132 = 0.0023; 4 of them.
+    assert!((o.standard_error - 0.132).abs() < 0.0095, "{}", o.standard_error);
+}
+
+#[test]
+fn percentile_interval_of_the_median_sits_on_the_order_statistics() {
+    // For n = 25 the bootstrap median is the 13th order statistic of the resample, and
+    // P(median* ≤ x₍k₎) = P(Binomial(25, k/25) ≥ 13) exactly. The 95 % percentile interval's
+    // endpoints are therefore order statistics; Conover (1999) §3.2 gives x₍8₎ and x₍18₎ as the
+    // distribution-free 95.67 % interval, and the bootstrap interval should sit there.
+    let x: Vec<f64> = (1..=25).map(|k| (k as f64).powf(1.3) + 0.1 * (k % 3) as f64).collect(); // distinct, increasing
+    let cdf_at = |k: u64| 1.0 - Binomial::new(k as f64 / 25.0, 25).unwrap().cdf(12);
+    // Smallest k with P(median* ≤ x₍k₎) ≥ 0.025, and likewise for 0.975.
+    let k_lo = (1..=25).find(|&k| cdf_at(k) >= 0.025).unwrap();
+    let k_hi = (1..=25).find(|&k| cdf_at(k) >= 0.975).unwrap();
+    assert_eq!((k_lo, k_hi), (8, 18), "matches the order statistics of Conover's interval");
+    let b = 40_000u64;
+    // The endpoint lands on x₍k₎ when the replicate CDF at the neighbouring order statistics is
+    // more than 4 Monte Carlo standard errors (√(p(1 − p)/B)) from the target level.
+    for (k, q) in [(k_lo, 0.025), (k_hi, 0.975)] {
+        let sd = (q * (1.0 - q) / b as f64).sqrt();
+        assert!(cdf_at(k - 1) < q - 4.0 * sd && cdf_at(k) > q + 4.0 * sd, "margins for k = {k}");
+    }
+    let o = run(&job(Sample::Column(x.clone()), StatisticSpec::Median, b, 21)).unwrap();
+    let iv = &o.intervals[0].endpoints;
+    assert_eq!(iv.lower, x[k_lo as usize - 1]);
+    assert_eq!(iv.upper, x[k_hi as usize - 1]);
+}
+
+#[test]
+fn aggregated_histogram_data_resample_like_the_expanded_rows() {
+    // A latency histogram (invented): the same sample as rows and as (value, count). The two
+    // draw differently but from the same distribution: their standard errors of the 0.9
+    // quantile must agree within the Monte Carlo error of each (4 sd of the difference).
+    let values = vec![12.0, 15.0, 18.0, 25.0, 40.0, 80.0, 200.0];
+    let counts = vec![310u64, 420, 260, 120, 60, 20, 10];
+    let rows: Vec<f64> = values.iter().zip(&counts).flat_map(|(v, c)| std::iter::repeat_n(*v, *c as usize)).collect();
+    let stat = StatisticSpec::Quantile { p: 0.9 };
+    let a = run(&job(Sample::Aggregated { values: values.clone(), counts: counts.clone() }, stat.clone(), 20_000, 1)).unwrap();
+    let r = run(&job(Sample::Column(rows), stat, 20_000, 2)).unwrap();
+    assert_eq!(a.estimate, r.estimate);
+    let tol = 4.0 * (a.standard_error_mc_error.powi(2) + r.standard_error_mc_error.powi(2)).sqrt();
+    assert!((a.standard_error - r.standard_error).abs() < tol, "{} vs {} ± {tol}", a.standard_error, r.standard_error);
+}
