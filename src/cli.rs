@@ -11,7 +11,11 @@ use clap::{Parser, Subcommand};
 use crate::config::Config;
 
 #[derive(Debug, Parser)]
-#[command(name = "bandsaw", version, about = "Bootstrap intervals for a data array: an HTTP service and an in-process command line.")]
+#[command(
+    name = "bandsaw",
+    version,
+    about = "Bootstrap intervals for a data array: an HTTP service and an in-process command line."
+)]
 pub struct Cli {
     #[command(subcommand)]
     pub command: Option<Command>,

@@ -10,7 +10,8 @@
 //! - [`api`]: the HTTP layer (axum): request parsing that reports every invalid field at once
 //!   as RFC 9457 problems, and the JSON response.
 //! - [`token`]: the reproducibility token.
-//! - [`server`]: configuration, the compute pool, startup and shutdown.
+//! - [`server`]: startup (`Application::build`, which reports the bound address) and graceful
+//!   shutdown; [`config`] the limits and flags; [`telemetry`] logs and Prometheus metrics.
 //! - [`cli`]: the command line.
 
 pub mod api;
@@ -18,4 +19,5 @@ pub mod cli;
 pub mod config;
 pub mod engine;
 pub mod server;
+pub mod telemetry;
 pub mod token;

@@ -3,23 +3,16 @@ use clap::Parser;
 use bandsaw::cli::{self, Cli, Command};
 use bandsaw::server::Application;
 
-fn init_logging(format: &str) {
-    let filter = tracing_subscriber::EnvFilter::try_from_env("BANDSAW_LOG").unwrap_or_else(|_| "info".into());
-    let builder = tracing_subscriber::fmt().with_env_filter(filter).with_writer(std::io::stderr);
-    if format == "json" {
-        builder.json().init();
-    } else {
-        builder.init();
-    }
-}
-
 fn main() {
     let args = Cli::parse();
     match args.command {
         Some(Command::Interval { input }) => std::process::exit(cli::interval(&args.config, input.as_deref())),
         None | Some(Command::Serve) => {
-            init_logging(&args.config.log_format);
-            let runtime = tokio::runtime::Builder::new_multi_thread().enable_all().build().expect("tokio runtime");
+            bandsaw::telemetry::init_logging(&args.config.log_format);
+            let runtime = tokio::runtime::Builder::new_multi_thread()
+                .enable_all()
+                .build()
+                .expect("tokio runtime");
             let result = runtime.block_on(async {
                 let app = Application::build(args.config.clone()).await?;
                 let addr = app.address();

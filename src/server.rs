@@ -1,32 +1,52 @@
-//! Startup and shutdown: bind the listener, build the compute pool, serve until a signal.
+//! Startup and shutdown: bind the listener, build the compute pool, serve until a signal, then
+//! drain.
 
 use std::net::SocketAddr;
 use std::sync::Arc;
+use std::time::Duration;
 
+use sha2::{Digest, Sha256};
 use tokio::net::TcpListener;
 
+use crate::api::pool::ComputePool;
 use crate::api::{self, AppState};
 use crate::config::Config;
+use crate::telemetry::Metrics;
 
 /// A bound, ready-to-run server.
 pub struct Application {
     listener: TcpListener,
     router: axum::Router,
     address: SocketAddr,
+    pool: Arc<ComputePool>,
+    grace: Duration,
 }
 
 impl Application {
     /// Bind the listener (port 0 picks a free port) and build the pool and routes.
     pub async fn build(config: Config) -> std::io::Result<Application> {
+        let keys = config.keys()?;
         let listener = TcpListener::bind(&config.listen).await?;
         let address = listener.local_addr()?;
-        let pool = rayon::ThreadPoolBuilder::new()
-            .num_threads(config.thread_count())
-            .thread_name(|i| format!("bandsaw-compute-{i}"))
-            .build()
-            .map_err(std::io::Error::other)?;
-        let state = AppState { pool: Arc::new(pool), settings: Arc::new(config.settings()), max_body_bytes: config.max_body_bytes };
-        Ok(Application { listener, router: api::router(state), address })
+        let metrics = Arc::new(Metrics::new());
+        let pool = Arc::new(ComputePool::new(config.thread_count(), config.queue_depth(), metrics.clone())?);
+        let state = AppState {
+            pool: pool.clone(),
+            settings: Arc::new(config.settings()),
+            metrics,
+            max_body_bytes: config.max_body_bytes,
+            max_batch_jobs: config.max_batch_jobs,
+            key_digests: Arc::new(keys.iter().map(|k| Sha256::digest(k.as_bytes()).into()).collect()),
+            test_hooks: config.test_hooks,
+        };
+        let router = api::router(state, &config.cors());
+        Ok(Application {
+            listener,
+            router,
+            address,
+            pool,
+            grace: Duration::from_millis(config.shutdown_grace_ms),
+        })
     }
 
     /// The address actually bound.
@@ -34,9 +54,29 @@ impl Application {
         self.address
     }
 
-    /// Serve until Ctrl-C or SIGTERM, then finish the requests in flight and return.
+    /// Serve until Ctrl-C or SIGTERM; then stop accepting, mark the pool draining (so
+    /// `/readyz` turns 503), let requests in flight finish within the grace period, and return.
     pub async fn run_until_stopped(self) -> std::io::Result<()> {
-        axum::serve(self.listener, self.router).with_graceful_shutdown(shutdown_signal()).await
+        let (tx, mut rx) = tokio::sync::watch::channel(false);
+        let pool = self.pool.clone();
+        let signal = async move {
+            shutdown_signal().await;
+            pool.start_draining();
+            let _ = tx.send(true);
+        };
+        let serve = axum::serve(self.listener, self.router).with_graceful_shutdown(signal);
+        let grace = self.grace;
+        let deadline = async move {
+            let _ = rx.wait_for(|stopping| *stopping).await;
+            tokio::time::sleep(grace).await;
+        };
+        tokio::select! {
+            r = serve => r,
+            _ = deadline => {
+                tracing::warn!(grace_ms = grace.as_millis() as u64, "requests still in flight at the end of the grace period; exiting");
+                Ok(())
+            }
+        }
     }
 }
 

@@ -81,7 +81,11 @@ impl TokenBody {
 pub enum TokenError {
     Malformed,
     /// Written by another format or engine version, whose results this engine may not reproduce.
-    Version { format: u32, engine: String, generator: String },
+    Version {
+        format: u32,
+        engine: String,
+        generator: String,
+    },
 }
 
 pub fn decode(token: &str) -> Result<TokenBody, TokenError> {
@@ -89,7 +93,11 @@ pub fn decode(token: &str) -> Result<TokenBody, TokenError> {
     let bytes = URL_SAFE_NO_PAD.decode(rest).map_err(|_| TokenError::Malformed)?;
     let body: TokenBody = serde_json::from_slice(&bytes).map_err(|_| TokenError::Malformed)?;
     if body.v != FORMAT_VERSION || body.engine != ENGINE_VERSION || body.generator != GENERATOR {
-        return Err(TokenError::Version { format: body.v, engine: body.engine, generator: body.generator });
+        return Err(TokenError::Version {
+            format: body.v,
+            engine: body.engine,
+            generator: body.generator,
+        });
     }
     Ok(body)
 }

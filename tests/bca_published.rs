@@ -14,8 +14,9 @@ use bandsaw::engine::interval::Method;
 use bandsaw::engine::run::{run, Job, Resamples};
 use bandsaw::engine::statistic::StatisticSpec;
 
-const SPATIAL_A: [f64; 26] =
-    [48., 36., 20., 29., 42., 42., 20., 42., 22., 41., 45., 14., 6., 0., 33., 28., 34., 4., 32., 24., 47., 41., 24., 26., 30., 41.];
+const SPATIAL_A: [f64; 26] = [
+    48., 36., 20., 29., 42., 42., 20., 42., 22., 41., 45., 14., 6., 0., 33., 28., 34., 4., 32., 24., 47., 41., 24., 26., 30., 41.,
+];
 
 /// Monte Carlo sd at `b` resamples from the sd measured at 2000.
 fn sd_at(sd_2000: f64, b: f64) -> f64 {
@@ -44,9 +45,12 @@ fn spatial_test_data_variance_matches_the_book_and_numpy() {
     let bca = &o.intervals[0].endpoints;
     let pct = &o.intervals[1].endpoints;
     // Against numpy at B = 200 000.
-    for (got, want, sd2000, name) in
-        [(bca.lower, 115.4, 2.0, "bca lower"), (bca.upper, 261.0, 4.0, "bca upper"), (pct.lower, 97.8, 1.8, "pct lower"), (pct.upper, 235.5, 2.0, "pct upper")]
-    {
+    for (got, want, sd2000, name) in [
+        (bca.lower, 115.4, 2.0, "bca lower"),
+        (bca.upper, 261.0, 4.0, "bca upper"),
+        (pct.lower, 97.8, 1.8, "pct lower"),
+        (pct.upper, 235.5, 2.0, "pct upper"),
+    ] {
         // + 0.05 for numpy's figures being rounded to one decimal.
         let tol = 4.0 * (sd_at(sd2000, b).powi(2) + sd_at(sd2000, 200_000.0).powi(2)).sqrt() + 0.05;
         assert!((got - want).abs() < tol, "{name}: {got} vs numpy {want} ± {tol}");
@@ -58,7 +62,12 @@ fn spatial_test_data_variance_matches_the_book_and_numpy() {
     }
     // The engine's own Monte Carlo errors should be of the measured size (within a factor 1.5
     // either way: the order-statistic estimate is itself rough).
-    for (got, sd2000) in [(bca.lower_mc_error, 2.0), (bca.upper_mc_error, 4.0), (pct.lower_mc_error, 1.8), (pct.upper_mc_error, 2.0)] {
+    for (got, sd2000) in [
+        (bca.lower_mc_error, 2.0),
+        (bca.upper_mc_error, 4.0),
+        (pct.lower_mc_error, 1.8),
+        (pct.upper_mc_error, 2.0),
+    ] {
         let want = sd_at(sd2000, b);
         assert!(got > want / 1.5 && got < want * 1.5, "mc error {got} vs measured {want}");
     }

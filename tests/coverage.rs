@@ -87,10 +87,21 @@ fn normal_samples_of_50_cover_near_90_percent() {
 fn small_skewed_samples_undercover_with_percentile_and_less_with_studentized() {
     let trials = 4000;
     let got = coverage(trials, 10, 1.0, 2, |r| Exp1.sample(r));
-    let tols = check("exponential n=10", got, [0.8086, 0.7956, 0.8054, 0.8192, 0.8896], [0.0012, 0.0013, 0.0013, 0.0012, 0.0010], trials);
+    let tols = check(
+        "exponential n=10",
+        got,
+        [0.8086, 0.7956, 0.8054, 0.8192, 0.8896],
+        [0.0012, 0.0013, 0.0013, 0.0012, 0.0010],
+        trials,
+    );
     // Percentile is below nominal by far more than its sampling error, and studentized is
     // closer to nominal than percentile by more than both errors together.
     let se_pct = (got[0] * (1.0 - got[0]) / trials as f64).sqrt();
     assert!(got[0] < 0.90 - 4.0 * se_pct, "percentile {}", got[0]);
-    assert!(got[4] - got[0] > tols[0] + tols[4], "studentized {} vs percentile {}", got[4], got[0]);
+    assert!(
+        got[4] - got[0] > tols[0] + tols[4],
+        "studentized {} vs percentile {}",
+        got[4],
+        got[0]
+    );
 }

@@ -11,12 +11,16 @@ const ALL: [Method; 5] = [Method::Percentile, Method::Basic, Method::Normal, Met
 
 /// Invented: basket sizes (items) of 40 checkouts.
 const BASKETS: [f64; 40] = [
-    3., 1., 7., 2., 2., 12., 4., 1., 5., 3., 2., 9., 1., 6., 3., 2., 18., 4., 2., 1., 3., 5., 2., 8., 1., 4., 2., 3., 11., 2., 1., 6., 3., 2., 4., 7., 1.,
-    2., 5., 3.,
+    3., 1., 7., 2., 2., 12., 4., 1., 5., 3., 2., 9., 1., 6., 3., 2., 18., 4., 2., 1., 3., 5., 2., 8., 1., 4., 2., 3., 11., 2., 1., 6., 3.,
+    2., 4., 7., 1., 2., 5., 3.,
 ];
 
 fn on_threads(threads: usize, job: &Job) -> Outcome {
-    rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap().install(|| run(job).unwrap())
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .unwrap()
+        .install(|| run(job).unwrap())
 }
 
 fn job(sample: Sample, stat: StatisticSpec, b: u64) -> Job {
@@ -24,14 +28,21 @@ fn job(sample: Sample, stat: StatisticSpec, b: u64) -> Job {
     j.resamples = Resamples::Fixed(b);
     j.methods = ALL.to_vec();
     j.levels = vec![0.8, 0.95];
-    j.include = Include { histogram: true, cdf: true, replicates: true };
+    j.include = Include {
+        histogram: true,
+        cdf: true,
+        replicates: true,
+    };
     j
 }
 
 fn columns() -> Sample {
     let x: Vec<f64> = (0..60).map(|i| (i as f64 * 0.37).sin() * 10.0 + i as f64).collect();
     let y: Vec<f64> = x.iter().enumerate().map(|(i, v)| 2.0 * v + ((i * 7919) % 13) as f64).collect();
-    Sample::Columns { names: vec!["visits".into(), "revenue".into()], columns: vec![x, y] }
+    Sample::Columns {
+        names: vec!["visits".into(), "revenue".into()],
+        columns: vec![x, y],
+    }
 }
 
 #[test]
@@ -39,9 +50,31 @@ fn results_are_identical_on_one_and_two_threads() {
     let cases = vec![
         job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 5000),
         job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Median, 3000), // nested studentized
-        job(Sample::Aggregated { values: vec![1., 2., 5., 9.], counts: vec![40, 25, 9, 2] }, StatisticSpec::Quantile { p: 0.9 }, 3000),
-        job(columns(), StatisticSpec::Correlation { x: "visits".into(), y: "revenue".into(), spearman: true }, 2000),
-        job(columns(), StatisticSpec::Ratio { numerator: "revenue".into(), denominator: "visits".into() }, 2000),
+        job(
+            Sample::Aggregated {
+                values: vec![1., 2., 5., 9.],
+                counts: vec![40, 25, 9, 2],
+            },
+            StatisticSpec::Quantile { p: 0.9 },
+            3000,
+        ),
+        job(
+            columns(),
+            StatisticSpec::Correlation {
+                x: "visits".into(),
+                y: "revenue".into(),
+                spearman: true,
+            },
+            2000,
+        ),
+        job(
+            columns(),
+            StatisticSpec::Ratio {
+                numerator: "revenue".into(),
+                denominator: "visits".into(),
+            },
+            2000,
+        ),
         {
             let mut j = job(Sample::Column(BASKETS.to_vec()), StatisticSpec::TrimmedMean { trim: 0.1 }, 2000);
             j.scheme = SchemeSpec::Bayesian;
@@ -67,7 +100,11 @@ fn auto_equals_a_fixed_run_of_the_size_it_chose() {
     let mut a = job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 0);
     a.resamples = Resamples::Auto { target: 0.05 };
     let auto = run(&a).unwrap();
-    assert!(auto.resamples >= 1000 && auto.resamples.is_power_of_two() || auto.resamples % 1000 == 0, "{}", auto.resamples);
+    assert!(
+        auto.resamples >= 1000 && auto.resamples.is_power_of_two() || auto.resamples % 1000 == 0,
+        "{}",
+        auto.resamples
+    );
     let fixed = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, auto.resamples)).unwrap();
     assert_eq!(auto.intervals, fixed.intervals);
     assert_eq!(auto.standard_error, fixed.standard_error);
@@ -79,7 +116,11 @@ fn auto_equals_a_fixed_run_of_the_size_it_chose() {
 
 #[test]
 fn a_partial_result_is_the_full_result_of_its_prefix() {
-    let mut j = job(Sample::Column((0..3000).map(|i| ((i * 7) % 101) as f64).collect()), StatisticSpec::Median, 1_000_000);
+    let mut j = job(
+        Sample::Column((0..3000).map(|i| ((i * 7) % 101) as f64).collect()),
+        StatisticSpec::Median,
+        1_000_000,
+    );
     j.methods = vec![Method::Percentile, Method::Bca];
     j.include = Include::default();
     j.deadline = Some(std::time::Instant::now() + std::time::Duration::from_millis(60));
@@ -101,14 +142,24 @@ fn with(sample_x: Vec<f64>, stat: StatisticSpec) -> Outcome {
 #[test]
 fn shifting_the_data_shifts_location_intervals() {
     let c = 1000.25;
-    for stat in [StatisticSpec::Mean, StatisticSpec::Median, StatisticSpec::Quantile { p: 0.8 }, StatisticSpec::TrimmedMean { trim: 0.2 }] {
+    for stat in [
+        StatisticSpec::Mean,
+        StatisticSpec::Median,
+        StatisticSpec::Quantile { p: 0.8 },
+        StatisticSpec::TrimmedMean { trim: 0.2 },
+    ] {
         let a = with(BASKETS.to_vec(), stat.clone());
         let b = with(BASKETS.iter().map(|v| v + c).collect(), stat.clone());
         // Same seed, same resamples: only rounding of the shifted values differs (1e-9 of the
         // magnitude ~1000 is far above double rounding, far below any statistical effect).
         let close = |x: f64, y: f64| (x - y).abs() < 1e-9 * y.abs().max(1.0);
         assert!(close(a.estimate + c, b.estimate), "{stat:?}");
-        assert!(close(a.standard_error, b.standard_error), "{stat:?}: {} vs {}", a.standard_error, b.standard_error);
+        assert!(
+            close(a.standard_error, b.standard_error),
+            "{stat:?}: {} vs {}",
+            a.standard_error,
+            b.standard_error
+        );
         for (ia, ib) in a.intervals.iter().zip(&b.intervals) {
             assert!(close(ia.endpoints.lower + c, ib.endpoints.lower), "{stat:?} {:?}", ia.method);
             assert!(close(ia.endpoints.upper + c, ib.endpoints.upper), "{stat:?} {:?}", ia.method);
@@ -150,10 +201,26 @@ fn scaling_the_data_scales_the_intervals() {
 }
 
 fn assert_all_finite(o: &Outcome, what: &str) {
-    let mut nums = vec![o.estimate, o.standard_error, o.standard_error_mc_error, o.bias, o.bias_mc_error, o.bias_corrected_estimate];
-    nums.extend([o.diagnostics.z0, o.diagnostics.replicate_skewness, o.diagnostics.acceleration.unwrap_or(0.0)]);
+    let mut nums = vec![
+        o.estimate,
+        o.standard_error,
+        o.standard_error_mc_error,
+        o.bias,
+        o.bias_mc_error,
+        o.bias_corrected_estimate,
+    ];
+    nums.extend([
+        o.diagnostics.z0,
+        o.diagnostics.replicate_skewness,
+        o.diagnostics.acceleration.unwrap_or(0.0),
+    ]);
     for iv in &o.intervals {
-        nums.extend([iv.endpoints.lower, iv.endpoints.upper, iv.endpoints.lower_mc_error, iv.endpoints.upper_mc_error]);
+        nums.extend([
+            iv.endpoints.lower,
+            iv.endpoints.upper,
+            iv.endpoints.lower_mc_error,
+            iv.endpoints.upper_mc_error,
+        ]);
     }
     if let Some(h) = &o.histogram {
         nums.extend(h.edges.iter().copied());
@@ -195,7 +262,12 @@ fn constant_data_gives_zero_width_intervals_and_a_warning() {
 #[test]
 fn tiny_and_lumpy_samples_give_finite_answers_with_warnings() {
     for x in [vec![3.0, 4.0], vec![1.0, 1.0, 1.0, 2.0], vec![0.0, 0.0, 0.0, 1.0, 0.0, 0.0]] {
-        for stat in [StatisticSpec::Mean, StatisticSpec::Median, StatisticSpec::Mad { normal_scale: false }, StatisticSpec::StdDev { ddof: 0 }] {
+        for stat in [
+            StatisticSpec::Mean,
+            StatisticSpec::Median,
+            StatisticSpec::Mad { normal_scale: false },
+            StatisticSpec::StdDev { ddof: 0 },
+        ] {
             let o = run(&job(Sample::Column(x.clone()), stat.clone(), 400)).unwrap();
             assert_all_finite(&o, &format!("{stat:?} on {x:?}"));
             let codes: Vec<&str> = o.diagnostics.warnings.iter().map(|w| w.code).collect();
@@ -221,7 +293,13 @@ fn diagnostics_flag_extremes_skew_bias_tails_and_serial_correlation() {
     // The plug-in variance of n values has bootstrap bias −σ̂²/n against a standard error of
     // about σ̂²·√(2/n) (for light tails): 1/√(2n) = 0.32 standard errors for n = 5.
     let o = with(vec![1.0, 2.0, 3.0, 4.0, 5.0], StatisticSpec::Variance { ddof: 0 });
-    assert!(codes(&o).contains(&"large_bias"), "{:?} bias {} se {}", codes(&o), o.bias, o.standard_error);
+    assert!(
+        codes(&o).contains(&"large_bias"),
+        "{:?} bias {} se {}",
+        codes(&o),
+        o.bias,
+        o.standard_error
+    );
     // 200 resamples leave 5 replicates in each tail of a 95 % interval.
     let o = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 200)).unwrap();
     assert!(codes(&o).contains(&"too_few_resamples"));
@@ -266,8 +344,16 @@ fn reported_monte_carlo_errors_match_the_spread_across_seeds() {
     for k in 0..3 {
         let empirical = sd(&lower[k]);
         let ratio = reported[k] / empirical;
-        assert!((0.8..1.2).contains(&ratio), "method {k}: reported {} vs empirical {empirical}", reported[k]);
+        assert!(
+            (0.8..1.2).contains(&ratio),
+            "method {k}: reported {} vs empirical {empirical}",
+            reported[k]
+        );
     }
     let ratio = se_mc / sd(&ses);
-    assert!((0.8..1.2).contains(&ratio), "standard error: reported {se_mc} vs empirical {}", sd(&ses));
+    assert!(
+        (0.8..1.2).contains(&ratio),
+        "standard error: reported {se_mc} vs empirical {}",
+        sd(&ses)
+    );
 }

@@ -26,14 +26,22 @@ fn plugin_var(x: &[f64]) -> f64 {
 }
 
 /// Invented: seconds a nightly data export took, 20 nights.
-const EXPORT_SECONDS: [f64; 20] =
-    [41.2, 38.7, 45.1, 39.9, 52.3, 40.4, 37.8, 44.6, 43.0, 61.7, 39.1, 42.8, 40.0, 47.5, 38.2, 44.1, 41.9, 55.0, 40.7, 43.3];
+const EXPORT_SECONDS: [f64; 20] = [
+    41.2, 38.7, 45.1, 39.9, 52.3, 40.4, 37.8, 44.6, 43.0, 61.7, 39.1, 42.8, 40.0, 47.5, 38.2, 44.1, 41.9, 55.0, 40.7, 43.3,
+];
 
 /// Law school data, Efron & Tibshirani (1993), Table 3.1.
 fn law_school() -> Sample {
-    let lsat = vec![576., 635., 558., 578., 666., 580., 555., 661., 651., 605., 653., 575., 545., 572., 594.];
-    let gpa = vec![3.39, 3.30, 2.81, 3.03, 3.44, 3.07, 3.00, 3.43, 3.36, 3.13, 3.12, 2.74, 2.76, 2.88, 2.96];
-    Sample::Columns { names: vec!["lsat".into(), "gpa".into()], columns: vec![lsat, gpa] }
+    let lsat = vec![
+        576., 635., 558., 578., 666., 580., 555., 661., 651., 605., 653., 575., 545., 572., 594.,
+    ];
+    let gpa = vec![
+        3.39, 3.30, 2.81, 3.03, 3.44, 3.07, 3.00, 3.43, 3.36, 3.13, 3.12, 2.74, 2.76, 2.88, 2.96,
+    ];
+    Sample::Columns {
+        names: vec!["lsat".into(), "gpa".into()],
+        columns: vec![lsat, gpa],
+    }
 }
 
 fn rel_se_of_se(o: &Outcome, kurtosis_bound: f64) -> f64 {
@@ -52,7 +60,10 @@ fn exact_enumeration_gives_the_ideal_standard_error_of_the_mean() {
     let want = (plugin_var(&x) / 8.0).sqrt();
     assert!((o.standard_error - want).abs() < 1e-12 * want, "{} vs {want}", o.standard_error);
     assert!(o.bias.abs() < 1e-12, "the mean is unbiased under the bootstrap: {}", o.bias);
-    assert!(o.intervals.iter().all(|iv| iv.endpoints.lower_mc_error == 0.0 && iv.endpoints.upper_mc_error == 0.0));
+    assert!(o
+        .intervals
+        .iter()
+        .all(|iv| iv.endpoints.lower_mc_error == 0.0 && iv.endpoints.upper_mc_error == 0.0));
 }
 
 #[test]
@@ -84,7 +95,10 @@ fn proportion_standard_error_is_binomial() {
     let tol = 4.0 * rel_se_of_se(&o, 3.1) * want;
     assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
     // Aggregated form of the same data: same distribution of replicates, drawn by binomials.
-    let agg = Sample::Aggregated { values: vec![0.0, 1.0], counts: vec![90, 40] };
+    let agg = Sample::Aggregated {
+        values: vec![0.0, 1.0],
+        counts: vec![90, 40],
+    };
     let o2 = run(&job(agg, StatisticSpec::Proportion, 100_000, 5)).unwrap();
     assert!((o2.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o2.standard_error);
 }
@@ -107,7 +121,11 @@ fn law_school_correlation_and_its_standard_error() {
     // Efron & Tibshirani (1993) §3 and Table 3.1: r = 0.7764; the bootstrap standard error is
     // 0.1333 (numpy, B = 200 000, REFERENCES.md) and about 0.132 at B = 3200 (the book, from
     // memory).
-    let stat = StatisticSpec::Correlation { x: "lsat".into(), y: "gpa".into(), spearman: false };
+    let stat = StatisticSpec::Correlation {
+        x: "lsat".into(),
+        y: "gpa".into(),
+        spearman: false,
+    };
     let o = run(&job(law_school(), stat, 200_000, 3)).unwrap();
     assert!((o.estimate - 0.7764).abs() < 5e-5, "{}", o.estimate);
     // Replicate correlations are skewed with kurtosis about 5 (measured here: see the engine's
@@ -151,11 +169,29 @@ fn aggregated_histogram_data_resample_like_the_expanded_rows() {
     // quantile must agree within the Monte Carlo error of each (4 sd of the difference).
     let values = vec![12.0, 15.0, 18.0, 25.0, 40.0, 80.0, 200.0];
     let counts = vec![310u64, 420, 260, 120, 60, 20, 10];
-    let rows: Vec<f64> = values.iter().zip(&counts).flat_map(|(v, c)| std::iter::repeat_n(*v, *c as usize)).collect();
+    let rows: Vec<f64> = values
+        .iter()
+        .zip(&counts)
+        .flat_map(|(v, c)| std::iter::repeat_n(*v, *c as usize))
+        .collect();
     let stat = StatisticSpec::Quantile { p: 0.9 };
-    let a = run(&job(Sample::Aggregated { values: values.clone(), counts: counts.clone() }, stat.clone(), 20_000, 1)).unwrap();
+    let a = run(&job(
+        Sample::Aggregated {
+            values: values.clone(),
+            counts: counts.clone(),
+        },
+        stat.clone(),
+        20_000,
+        1,
+    ))
+    .unwrap();
     let r = run(&job(Sample::Column(rows), stat, 20_000, 2)).unwrap();
     assert_eq!(a.estimate, r.estimate);
     let tol = 4.0 * (a.standard_error_mc_error.powi(2) + r.standard_error_mc_error.powi(2)).sqrt();
-    assert!((a.standard_error - r.standard_error).abs() < tol, "{} vs {} ± {tol}", a.standard_error, r.standard_error);
+    assert!(
+        (a.standard_error - r.standard_error).abs() < tol,
+        "{} vs {} ± {tol}",
+        a.standard_error,
+        r.standard_error
+    );
 }

@@ -41,7 +41,9 @@ pub fn parse_json(body: &[u8]) -> Result<Value, Problem> {
             }
             // serde_json's message names a line and column and the kind of mistake, never the
             // content, so it is safe to return and to log.
-            Err(Problem::malformed_json(format!("the body is not valid JSON ({e}); send a JSON object such as {{\"data\": [1.5, 2.25, 3.0]}}")))
+            Err(Problem::malformed_json(format!(
+                "the body is not valid JSON ({e}); send a JSON object such as {{\"data\": [1.5, 2.25, 3.0]}}"
+            )))
         }
     }
 }
@@ -103,27 +105,60 @@ fn params_from_token(body: &TokenBody, limits: &Limits) -> Result<(IntervalParam
         _ => None,
     };
     match (statistic, scheme, methods, stop, resamples) {
-        (Some(statistic), Some(scheme), Some(methods), Some(stop), Some(resamples)) if levels_ok && errs.is_empty() && !methods.is_empty() => Ok((
-            IntervalParams {
-                statistic,
-                resamples,
-                seed: Some(body.seed),
-                levels: body.levels.clone(),
-                methods,
-                scheme,
-                include,
-                inner_resamples: body.inner_resamples.clamp(10, 1000),
-            },
-            if body.mode == "exact" { None } else { Some(stop) },
-        )),
-        _ => Err(Problem::invalid(vec![FieldError::new("/token", "this token is damaged or outside this server's limits; send the parameters instead")])),
+        (Some(statistic), Some(scheme), Some(methods), Some(stop), Some(resamples))
+            if levels_ok && errs.is_empty() && !methods.is_empty() =>
+        {
+            Ok((
+                IntervalParams {
+                    statistic,
+                    resamples,
+                    seed: Some(body.seed),
+                    levels: body.levels.clone(),
+                    methods,
+                    scheme,
+                    include,
+                    inner_resamples: body.inner_resamples.clamp(10, 1000),
+                },
+                if body.mode == "exact" { None } else { Some(stop) },
+            ))
+        }
+        _ => Err(Problem::invalid(vec![FieldError::new(
+            "/token",
+            "this token is damaged or outside this server's limits; send the parameters instead",
+        )])),
     }
+}
+
+/// A validated interval job with its estimated work, ready to run.
+#[derive(Debug, Clone)]
+pub struct PreparedJob {
+    pub job: Job,
+    pub sample_digest: [u8; 32],
+    pub params: IntervalParams,
+    pub mode: String,
+    pub target: Option<f64>,
+    pub time_limit_ms: u64,
+    /// Estimated row-draws (units × resamples × relative cost × nested factor).
+    pub work: f64,
 }
 
 /// Compute an interval response from a request body.
 pub fn compute(body: &[u8], settings: &Settings, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
     let json = parse_json(body)?;
-    let req = request::parse_interval(&json, &settings.limits).map_err(Problem::invalid)?;
+    if !json.is_object() {
+        return Err(Problem::malformed_json(
+            "the body must be a JSON object such as {\"data\": [1.5, 2.25, 3.0]}",
+        ));
+    }
+    let prepared = prepare(&json, settings, started, None)?;
+    execute(prepared, cancel, started)
+}
+
+/// Validate a request (or replay its token), estimate its work and build the engine job; every
+/// refusal here happens before any resampling. `deadline_cap` bounds the job's own deadline
+/// (a batch's time limit).
+pub fn prepare(json: &Value, settings: &Settings, started: Instant, deadline_cap: Option<Instant>) -> Result<PreparedJob, Problem> {
+    let req = request::parse_interval(json, &settings.limits).map_err(Problem::invalid)?;
 
     let (params, recorded_stop, mode, target) = match &req.token {
         Some(t) => {
@@ -158,18 +193,21 @@ pub fn compute(body: &[u8], settings: &Settings, cancel: Arc<AtomicBool>, starte
     let nested = params.methods.contains(&Method::Studentized) && !params.statistic.has_analytic_se();
     let per_resample = units * params.statistic.relative_cost() * if nested { 1.0 + params.inner_resamples as f64 } else { 1.0 };
     let mut max_resamples = settings.limits.max_resamples;
+    let work;
     match params.resamples {
         Resamples::Fixed(b) => {
-            if per_resample * b as f64 > settings.work_limit {
-                return Err(Problem::work_limit(per_resample * b as f64, settings.work_limit));
+            work = per_resample * b as f64;
+            if work > settings.work_limit {
+                return Err(Problem::work_limit(work, settings.work_limit));
             }
         }
         Resamples::Exact => {
             let count = exact::count(req.sample.n(), req.sample.units());
             match count {
                 Some(c) if c <= settings.limits.max_resamples => {
-                    if per_resample * c as f64 > settings.work_limit {
-                        return Err(Problem::work_limit(per_resample * c as f64, settings.work_limit));
+                    work = per_resample * c as f64;
+                    if work > settings.work_limit {
+                        return Err(Problem::work_limit(work, settings.work_limit));
                     }
                 }
                 _ => {
@@ -190,6 +228,7 @@ pub fn compute(body: &[u8], settings: &Settings, cancel: Arc<AtomicBool>, starte
                 return Err(Problem::work_limit(per_resample * AUTO_START as f64, settings.work_limit));
             }
             max_resamples = max_resamples.min(affordable);
+            work = per_resample * max_resamples as f64;
         }
     }
 
@@ -204,15 +243,41 @@ pub fn compute(body: &[u8], settings: &Settings, cancel: Arc<AtomicBool>, starte
         include: params.include,
         inner_resamples: params.inner_resamples,
         max_resamples,
-        deadline: Some(started + Duration::from_millis(req.time_limit_ms)),
+        deadline: Some({
+            let own = started + Duration::from_millis(req.time_limit_ms);
+            deadline_cap.map_or(own, |cap| cap.min(own))
+        }),
         on_time_limit: req.on_time_limit,
-        cancel: Some(cancel),
+        cancel: None,
         recorded_stop,
     };
+    Ok(PreparedJob {
+        sample_digest: req.sample.digest(),
+        job,
+        params,
+        mode,
+        target,
+        time_limit_ms: req.time_limit_ms,
+        work,
+    })
+}
+
+/// Run a prepared job and build its response JSON.
+pub fn execute(prepared: PreparedJob, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
+    let PreparedJob {
+        mut job,
+        sample_digest,
+        params,
+        mode,
+        target,
+        time_limit_ms,
+        ..
+    } = prepared;
+    job.cancel = Some(cancel);
     let outcome = run::run(&job).map_err(|e| match e {
-        RunError::Data(problems) => data_problems(&req.sample, problems, "/data", "/statistic"),
-        RunError::TimeLimit { done, requested } => Problem::time_limit(done, requested, req.time_limit_ms),
-        RunError::Cancelled => Problem::internal("the request was cancelled"),
+        RunError::Data(problems) => data_problems(&job.sample, problems, "/data", "/statistic"),
+        RunError::TimeLimit { done, requested } => Problem::time_limit(done, requested, time_limit_ms),
+        RunError::Cancelled => Problem::cancelled(),
         RunError::ExactTooLarge { count, limit } => Problem::invalid(vec![FieldError::new(
             "/resamples",
             format!("\"exact\" would enumerate {count:?} resamples, above the limit of {limit}"),
@@ -225,7 +290,7 @@ pub fn compute(body: &[u8], settings: &Settings, cancel: Arc<AtomicBool>, starte
 
     let statistic_json = request::statistic_json(&params.statistic);
     let scheme_json = request::scheme_json(params.scheme);
-    let mut tb = TokenBody::new_for(seed, &req.sample.digest());
+    let mut tb = TokenBody::new_for(job.seed, &sample_digest);
     tb.mode = mode;
     tb.resamples = outcome.resamples;
     tb.stop = outcome.stop.name().to_string();
@@ -237,11 +302,13 @@ pub fn compute(body: &[u8], settings: &Settings, cancel: Arc<AtomicBool>, starte
     tb.include = include_names(params.include);
     tb.inner_resamples = params.inner_resamples;
     let elapsed_ms = (started.elapsed().as_secs_f64() * 1e3 * 1000.0).round() / 1000.0;
-    let resp = IntervalResponse::from_outcome(outcome, statistic_json, scheme_json, seed, tb.encode(), elapsed_ms);
+    let resp = IntervalResponse::from_outcome(outcome, statistic_json, scheme_json, job.seed, tb.encode(), elapsed_ms);
     let value = serde_json::to_value(&resp).map_err(|e| Problem::internal(format!("could not encode the result: {e}")))?;
     let mut at = String::new();
     if find_null(&value, &mut at) {
-        return Err(Problem::internal(format!("the result had an undefined number at {at}; this is a bug, please report it with the request's parameters")));
+        return Err(Problem::internal(format!(
+            "the result had an undefined number at {at}; this is a bug, please report it with the request's parameters"
+        )));
     }
     Ok(value)
 }

@@ -1,48 +1,268 @@
 //! The HTTP layer: routes, request parsing and validation, responses and problem documents.
+//!
+//! Every route is served by tokio; compute (including parsing large bodies) goes to the
+//! bounded [`pool::ComputePool`]. One middleware, [`observe`], gives each request an id, logs
+//! one structured line for it and counts it in the metrics; another, [`require_key`], checks API
+//! keys on `/v1/*` when keys are configured.
 
+pub mod batch;
+pub mod catalog;
 pub mod interval;
+pub mod openapi;
+pub mod pool;
 pub mod problem;
 pub mod request;
 pub mod response;
 
-use std::panic::AssertUnwindSafe;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
 use std::time::Instant;
 
 use axum::body::Body;
-use axum::extract::State;
-use axum::http::{header, HeaderMap, StatusCode, Uri};
+use axum::extract::{MatchedPath, Request, State};
+use axum::http::{header, HeaderMap, HeaderValue, Method, StatusCode, Uri};
+use axum::middleware::{self, Next};
 use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
 use axum::{Json, Router};
 use http_body_util::{BodyExt, LengthLimitError, Limited};
+use sha2::{Digest, Sha256};
+use subtle::ConstantTimeEq;
+use tower_http::compression::CompressionLayer;
+use tower_http::cors::{AllowOrigin, CorsLayer};
 
 use self::interval::Settings;
+use self::pool::ComputePool;
 use self::problem::Problem;
+use crate::telemetry::{Metrics, Route, RouteStatus};
 
 /// Shared state of every handler.
 #[derive(Clone)]
 pub struct AppState {
-    pub pool: Arc<rayon::ThreadPool>,
+    pub pool: Arc<ComputePool>,
     pub settings: Arc<Settings>,
+    pub metrics: Arc<Metrics>,
     pub max_body_bytes: usize,
+    pub max_batch_jobs: usize,
+    /// SHA-256 of every accepted API key; empty: no keys needed.
+    pub key_digests: Arc<Vec<[u8; 32]>>,
+    pub test_hooks: bool,
 }
 
-pub fn router(state: AppState) -> Router {
-    Router::new()
-        .route("/healthz", get(healthz))
+/// What a compute route learned about its job, for the request's log line. Never data values.
+#[derive(Debug, Clone, Default)]
+pub struct JobFacts {
+    pub rows: u64,
+    pub resamples: u64,
+    pub statistic: String,
+    pub jobs: usize,
+}
+
+/// Header that makes a job panic when test hooks are on (tests of panic isolation only).
+pub const TEST_PANIC_HEADER: &str = "x-bandsaw-test-panic";
+
+pub fn router(state: AppState, cors_origins: &[String]) -> Router {
+    let v1 = Router::new()
         .route("/v1/interval", post(interval_route))
+        .route("/v1/batch", post(batch_route))
+        .route("/v1/catalog", get(catalog_route))
+        .route_layer(middleware::from_fn_with_state(state.clone(), require_key));
+    let mut app = Router::new()
+        .merge(v1)
+        .route("/healthz", get(healthz))
+        .route("/readyz", get(readyz))
+        .route("/metrics", get(metrics_route))
+        .route("/openapi.json", get(openapi_route))
         .fallback(not_found)
-        .with_state(state)
+        .method_not_allowed_fallback(method_not_allowed)
+        .layer(middleware::from_fn_with_state(state.clone(), observe))
+        .layer(CompressionLayer::new());
+    if !cors_origins.is_empty() {
+        let origins = if cors_origins.iter().any(|o| o == "*") {
+            AllowOrigin::any()
+        } else {
+            AllowOrigin::list(cors_origins.iter().filter_map(|o| HeaderValue::from_str(o).ok()))
+        };
+        app = app.layer(
+            CorsLayer::new()
+                .allow_origin(origins)
+                .allow_methods([Method::GET, Method::POST])
+                .allow_headers([
+                    header::CONTENT_TYPE,
+                    header::AUTHORIZATION,
+                    header::ACCEPT,
+                    header::HeaderName::from_static("x-request-id"),
+                ])
+                .expose_headers([header::HeaderName::from_static("x-request-id"), header::RETRY_AFTER]),
+        );
+    }
+    app.with_state(state)
 }
 
 async fn healthz() -> Json<serde_json::Value> {
     Json(serde_json::json!({ "status": "ok" }))
 }
 
+async fn readyz(State(app): State<AppState>) -> Response {
+    if app.pool.ready() {
+        (StatusCode::OK, Json(serde_json::json!({ "status": "ready" }))).into_response()
+    } else {
+        let mut p = Problem::new(
+            StatusCode::SERVICE_UNAVAILABLE,
+            "not-ready",
+            "Not accepting work",
+            "the pool is shedding load or the server is draining for shutdown; send work to another replica",
+        );
+        p.retry_after = Some(1);
+        p.into_response()
+    }
+}
+
+async fn metrics_route(State(app): State<AppState>) -> Response {
+    app.metrics.queue_depth.set(app.pool.queue_depth() as i64);
+    app.metrics.jobs_running.set(app.pool.running() as i64);
+    let mut resp = app.metrics.encode().into_response();
+    resp.headers_mut().insert(
+        header::CONTENT_TYPE,
+        HeaderValue::from_static("text/plain; version=0.0.4; charset=utf-8"),
+    );
+    resp
+}
+
+async fn openapi_route() -> Response {
+    let mut resp = openapi::document_json().into_response();
+    resp.headers_mut()
+        .insert(header::CONTENT_TYPE, HeaderValue::from_static("application/json"));
+    resp
+}
+
+async fn catalog_route(State(app): State<AppState>) -> Json<catalog::CatalogResponse> {
+    let l = &app.settings.limits;
+    Json(catalog::catalog(catalog::LimitsEntry {
+        max_body_bytes: app.max_body_bytes,
+        max_rows: l.max_rows,
+        max_resamples: l.max_resamples,
+        work_limit: app.settings.work_limit,
+        default_time_limit_ms: l.default_time_limit_ms,
+        max_time_limit_ms: l.max_time_limit_ms,
+        max_batch_jobs: app.max_batch_jobs,
+        threads: app.pool.threads(),
+        queue: app.pool.queue_capacity(),
+        max_seed: request::MAX_SEED,
+        max_magnitude: request::MAX_MAGNITUDE,
+    }))
+}
+
 async fn not_found(uri: Uri) -> Problem {
     Problem::not_found(uri.path())
+}
+
+async fn method_not_allowed(method: Method, uri: Uri) -> Problem {
+    Problem::new(
+        StatusCode::METHOD_NOT_ALLOWED,
+        "method-not-allowed",
+        "Method not allowed",
+        format!("{} does not answer {method}; see /openapi.json for each route's method", uri.path()),
+    )
+}
+
+/// Request id: the caller's `x-request-id` when it is short and plain, else a fresh one.
+fn request_id(headers: &HeaderMap) -> String {
+    headers
+        .get("x-request-id")
+        .and_then(|v| v.to_str().ok())
+        .filter(|s| !s.is_empty() && s.len() <= 64 && s.bytes().all(|b| b.is_ascii_alphanumeric() || b"-_.:".contains(&b)))
+        .map(String::from)
+        .unwrap_or_else(|| format!("{:016x}", rand::random::<u64>()))
+}
+
+/// Give each request an id, log one line for it (never data values) and count it.
+async fn observe(State(app): State<AppState>, req: Request, next: Next) -> Response {
+    let started = Instant::now();
+    let route = req
+        .extensions()
+        .get::<MatchedPath>()
+        .map(|m| m.as_str().to_string())
+        .unwrap_or_else(|| "unmatched".into());
+    let id = request_id(req.headers());
+    let method = req.method().clone();
+    let mut resp = next.run(req).await;
+    let status = resp.status().as_u16();
+    let latency = started.elapsed().as_secs_f64();
+    if let Ok(v) = HeaderValue::from_str(&id) {
+        resp.headers_mut().insert("x-request-id", v);
+    }
+    app.metrics
+        .requests
+        .get_or_create(&RouteStatus {
+            route: route.clone(),
+            status,
+        })
+        .inc();
+    app.metrics.latency.get_or_create(&Route { route: route.clone() }).observe(latency);
+    let facts = resp.extensions().get::<JobFacts>().cloned().unwrap_or_default();
+    let outcome = resp
+        .extensions()
+        .get::<Outcome>()
+        .map(|o| o.0)
+        .unwrap_or(if status < 400 { "ok" } else { "error" });
+    tracing::info!(
+        request_id = %id,
+        method = %method,
+        route = %route,
+        status,
+        latency_ms = latency * 1e3,
+        rows = facts.rows,
+        resamples = facts.resamples,
+        statistic = %facts.statistic,
+        jobs = facts.jobs,
+        outcome,
+        "request"
+    );
+    resp
+}
+
+/// The outcome slug of a request for its log line ("ok" or a problem slug).
+#[derive(Debug, Clone, Copy)]
+struct Outcome(&'static str);
+
+fn outcome_of(p: &Problem) -> &'static str {
+    match p.slug() {
+        "malformed-json" => "malformed-json",
+        "body-too-large" => "body-too-large",
+        "unsupported-media-type" => "unsupported-media-type",
+        "invalid-request" => "invalid-request",
+        "work-limit" => "work-limit",
+        "data-mismatch" => "data-mismatch",
+        "unauthorized" => "unauthorized",
+        "overloaded" => "overloaded",
+        "time-limit" => "time-limit",
+        "cancelled" => "cancelled",
+        _ => "internal",
+    }
+}
+
+/// Refuse `/v1/*` without a valid key when keys are configured. Keys are compared as SHA-256
+/// digests in constant time, so neither the key nor its length leaks through timing.
+async fn require_key(State(app): State<AppState>, req: Request, next: Next) -> Response {
+    if app.key_digests.is_empty() {
+        return next.run(req).await;
+    }
+    let presented = req
+        .headers()
+        .get(header::AUTHORIZATION)
+        .and_then(|v| v.to_str().ok())
+        .and_then(|v| v.strip_prefix("Bearer ").or_else(|| v.strip_prefix("bearer ")))
+        .map(|k| -> [u8; 32] { Sha256::digest(k.trim().as_bytes()).into() });
+    let ok = presented.is_some_and(|d| app.key_digests.iter().fold(0u8, |acc, k| acc | k.ct_eq(&d).unwrap_u8()) == 1);
+    if ok {
+        next.run(req).await
+    } else {
+        let mut resp = Problem::unauthorized().into_response();
+        resp.headers_mut()
+            .insert(header::WWW_AUTHENTICATE, HeaderValue::from_static("Bearer"));
+        resp
+    }
 }
 
 /// Sets the job's cancel flag when the request future is dropped (the client went away), so
@@ -75,23 +295,16 @@ pub async fn read_body(body: Body, limit: usize) -> Result<axum::body::Bytes, Pr
     }
 }
 
-/// Run `f` on the compute pool and wait for it without blocking the runtime; a panic inside
-/// becomes a 500 problem for this request only.
-pub async fn on_pool<T: Send + 'static>(pool: &rayon::ThreadPool, f: impl FnOnce() -> Result<T, Problem> + Send + 'static) -> Result<T, Problem> {
-    let (tx, rx) = tokio::sync::oneshot::channel();
-    pool.spawn(move || {
-        let r = std::panic::catch_unwind(AssertUnwindSafe(f));
-        let _ = tx.send(r);
-    });
-    match rx.await {
-        Ok(Ok(r)) => r,
-        Ok(Err(_panic)) => Err(Problem::internal("the computation failed unexpectedly; the server is still serving. Please report the request's parameters (not its data) if this repeats")),
-        Err(_) => Err(Problem::internal("the compute pool dropped the job")),
-    }
-}
-
-async fn interval_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
+/// The shared path of the compute routes: media type, body limit, cancel on disconnect, the
+/// pool, and the response with its log facts.
+async fn compute_route(
+    app: AppState,
+    headers: HeaderMap,
+    body: Body,
+    work: impl FnOnce(axum::body::Bytes, Arc<Settings>, Arc<AtomicBool>, Instant) -> Result<serde_json::Value, Problem> + Send + 'static,
+) -> Response {
     let started = Instant::now();
+    let panic_hook = app.test_hooks && headers.contains_key(TEST_PANIC_HEADER);
     let result = async {
         if !is_json(&headers) {
             return Err(Problem::unsupported_media_type());
@@ -100,26 +313,70 @@ async fn interval_route(State(app): State<AppState>, headers: HeaderMap, body: B
         let cancel = Arc::new(AtomicBool::new(false));
         let _guard = CancelOnDrop(cancel.clone());
         let settings = app.settings.clone();
-        on_pool(&app.pool, move || interval::compute(&bytes, &settings, cancel, started)).await
+        app.pool
+            .run(move || {
+                if panic_hook {
+                    panic!("test hook: a job that panics");
+                }
+                work(bytes, settings, cancel, started)
+            })
+            .await
     }
     .await;
-    let latency_ms = started.elapsed().as_secs_f64() * 1e3;
     match result {
         Ok(v) => {
-            tracing::info!(
-                route = "/v1/interval",
-                status = 200,
-                latency_ms,
-                n = v.get("n").and_then(|x| x.as_u64()).unwrap_or(0),
-                resamples = v.get("resamples").and_then(|x| x.as_u64()).unwrap_or(0),
-                statistic = v.pointer("/statistic/name").and_then(|x| x.as_str()).unwrap_or(""),
-                "request"
-            );
-            (StatusCode::OK, Json(v)).into_response()
+            let facts = facts_of(&v);
+            app.metrics.replicates.inc_by(facts.resamples);
+            let mut resp = (StatusCode::OK, Json(v)).into_response();
+            resp.extensions_mut().insert(facts);
+            resp.extensions_mut().insert(Outcome("ok"));
+            resp
         }
         Err(p) => {
-            tracing::info!(route = "/v1/interval", status = p.status, latency_ms, problem = p.slug(), "request");
-            p.into_response()
+            let outcome = outcome_of(&p);
+            let mut resp = p.into_response();
+            resp.extensions_mut().insert(Outcome(outcome));
+            resp
         }
     }
+}
+
+fn facts_of(v: &serde_json::Value) -> JobFacts {
+    let one = |r: &serde_json::Value| JobFacts {
+        rows: r.get("n").and_then(|x| x.as_u64()).unwrap_or(0),
+        resamples: r.get("resamples").and_then(|x| x.as_u64()).unwrap_or(0),
+        statistic: r.pointer("/statistic/name").and_then(|x| x.as_str()).unwrap_or("").to_string(),
+        jobs: 1,
+    };
+    match v.get("results").and_then(|r| r.as_array()) {
+        None => one(v),
+        Some(results) => {
+            let mut f = JobFacts {
+                jobs: results.len(),
+                ..JobFacts::default()
+            };
+            for r in results.iter().filter_map(|r| r.get("ok")) {
+                let g = one(r);
+                f.rows += g.rows;
+                f.resamples += g.resamples;
+            }
+            f.statistic = "batch".into();
+            f
+        }
+    }
+}
+
+async fn interval_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
+    compute_route(app, headers, body, |bytes, settings, cancel, started| {
+        interval::compute(&bytes, &settings, cancel, started)
+    })
+    .await
+}
+
+async fn batch_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
+    let max_jobs = app.max_batch_jobs;
+    compute_route(app, headers, body, move |bytes, settings, cancel, started| {
+        batch::compute(&bytes, &settings, max_jobs, cancel, started)
+    })
+    .await
 }

@@ -13,7 +13,10 @@ pub struct FieldError {
 
 impl FieldError {
     pub fn new(pointer: impl Into<String>, message: impl Into<String>) -> Self {
-        FieldError { pointer: pointer.into(), message: message.into() }
+        FieldError {
+            pointer: pointer.into(),
+            message: message.into(),
+        }
     }
 }
 
@@ -117,12 +120,49 @@ impl Problem {
         )
     }
 
+    /// The caller went away before the result was ready; nobody reads this, but it is logged.
+    pub fn cancelled() -> Self {
+        Problem::new(
+            StatusCode::SERVICE_UNAVAILABLE,
+            "cancelled",
+            "The request was cancelled",
+            "the client closed the connection, so the job was stopped",
+        )
+    }
+
+    pub fn overloaded(retry_after: u64) -> Self {
+        let mut p = Problem::new(
+            StatusCode::SERVICE_UNAVAILABLE,
+            "overloaded",
+            "The server is at capacity",
+            format!(
+                "every compute thread is busy and the queue is full; retry after {retry_after} s (see Retry-After), or send smaller jobs"
+            ),
+        );
+        p.retry_after = Some(retry_after);
+        p
+    }
+
+    pub fn unauthorized() -> Self {
+        Problem::new(
+            StatusCode::UNAUTHORIZED,
+            "unauthorized",
+            "A valid API key is required",
+            "send a key this server accepts as the header Authorization: Bearer <key>",
+        )
+    }
+
     pub fn internal(detail: impl Into<String>) -> Self {
         Problem::new(StatusCode::INTERNAL_SERVER_ERROR, "internal", "Internal error", detail)
     }
 
     pub fn not_found(path: &str) -> Self {
-        Problem::new(StatusCode::NOT_FOUND, "not-found", "No such route", format!("{path} is not a route of this server; GET /v1/catalog lists what it does"))
+        Problem::new(
+            StatusCode::NOT_FOUND,
+            "not-found",
+            "No such route",
+            format!("{path} is not a route of this server; GET /v1/catalog lists what it does"),
+        )
     }
 }
 
@@ -141,7 +181,8 @@ impl IntoResponse for Problem {
         let status = StatusCode::from_u16(self.status).unwrap_or(StatusCode::INTERNAL_SERVER_ERROR);
         let body = serde_json::to_vec(&self).expect("a problem serialises");
         let mut resp = (status, body).into_response();
-        resp.headers_mut().insert(header::CONTENT_TYPE, HeaderValue::from_static("application/problem+json"));
+        resp.headers_mut()
+            .insert(header::CONTENT_TYPE, HeaderValue::from_static("application/problem+json"));
         if let Some(secs) = self.retry_after {
             resp.headers_mut().insert(header::RETRY_AFTER, HeaderValue::from(secs));
         }

@@ -15,6 +15,9 @@ use crate::engine::run::{Include, OnTimeLimit, Resamples, DEFAULT_INNER_RESAMPLE
 use crate::engine::scheme::SchemeSpec;
 use crate::engine::statistic::StatisticSpec;
 
+/// The largest magnitude accepted in data: squares and sums of a million squares stay finite.
+pub const MAX_MAGNITUDE: f64 = 1e150;
+
 /// The largest seed every JSON client carries exactly: 2^53 − 1.
 pub const MAX_SEED: u64 = (1 << 53) - 1;
 
@@ -97,7 +100,17 @@ const INTERVAL_FIELDS: &[&str] = &[
 ];
 
 /// Fields a token stands in for.
-const TOKEN_REPLACES: &[&str] = &["statistic", "resamples", "target_mc_error", "seed", "levels", "methods", "scheme", "include", "inner_resamples"];
+const TOKEN_REPLACES: &[&str] = &[
+    "statistic",
+    "resamples",
+    "target_mc_error",
+    "seed",
+    "levels",
+    "methods",
+    "scheme",
+    "include",
+    "inner_resamples",
+];
 
 /// Collects field errors while reading a request.
 #[derive(Default)]
@@ -129,7 +142,10 @@ pub fn describe(v: &Value) -> String {
 fn number_message(v: &Value) -> String {
     match v {
         Value::String(s) if matches!(s.to_ascii_lowercase().trim_start_matches(['+', '-']), "nan" | "infinity" | "inf") => {
-            format!("must be a finite number; got {}: NaN and infinite values are not data (drop or impute them before sending)", describe(v))
+            format!(
+                "must be a finite number; got {}: NaN and infinite values are not data (drop or impute them before sending)",
+                describe(v)
+            )
         }
         Value::String(_) => format!("must be a JSON number, not {} (send numbers unquoted)", describe(v)),
         _ => format!("must be a number; got {}", describe(v)),
@@ -147,7 +163,17 @@ fn number_array(v: &Value, ptr: &str, errs: &mut Errors) -> Option<Vec<f64>> {
     let mut reported = 0;
     for (i, item) in items.iter().enumerate() {
         match item.as_f64() {
-            Some(x) if x.is_finite() => out.push(x),
+            Some(x) if x.is_finite() && x.abs() <= MAX_MAGNITUDE => out.push(x),
+            Some(x) if x.is_finite() => {
+                ok = false;
+                if reported < 100 {
+                    errs.push(
+                        format!("{ptr}/{i}"),
+                        format!("has magnitude above {MAX_MAGNITUDE:e}, where sums of squares overflow double precision; rescale the data (other units)"),
+                    );
+                }
+                reported += 1;
+            }
             _ => {
                 ok = false;
                 // Report every bad element, up to a bound that keeps the problem document small.
@@ -159,7 +185,10 @@ fn number_array(v: &Value, ptr: &str, errs: &mut Errors) -> Option<Vec<f64>> {
         }
     }
     if reported > 100 {
-        errs.push(ptr, format!("{reported} elements in all are not finite numbers; the first 100 are listed"));
+        errs.push(
+            ptr,
+            format!("{reported} elements in all are not finite numbers; the first 100 are listed"),
+        );
     }
     ok.then_some(out)
 }
@@ -169,7 +198,10 @@ fn unknown_fields(obj: &Map<String, Value>, allowed: &[&str], ptr: &str, errs: &
         if !allowed.contains(&k.as_str()) {
             errs.push(
                 format!("{ptr}/{}", escape_token(k)),
-                format!("unknown field; the fields here are {}", allowed.iter().map(|a| format!("\"{a}\"")).collect::<Vec<_>>().join(", ")),
+                format!(
+                    "unknown field; the fields here are {}",
+                    allowed.iter().map(|a| format!("\"{a}\"")).collect::<Vec<_>>().join(", ")
+                ),
             );
         }
     }
@@ -178,7 +210,10 @@ fn unknown_fields(obj: &Map<String, Value>, allowed: &[&str], ptr: &str, errs: &
 /// Read `data` in any of its three forms.
 pub fn parse_data(v: Option<&Value>, ptr: &str, limits: &Limits, errs: &mut Errors) -> Option<Sample> {
     let Some(v) = v else {
-        errs.push(ptr, "is required: an array of numbers, {\"values\": [...], \"counts\": [...]}, or {\"columns\": {\"x\": [...], ...}}");
+        errs.push(
+            ptr,
+            "is required: an array of numbers, {\"values\": [...], \"counts\": [...]}, or {\"columns\": {\"x\": [...], ...}}",
+        );
         return None;
     };
     let sample = match v {
@@ -214,7 +249,11 @@ pub fn parse_data(v: Option<&Value>, ptr: &str, limits: &Limits, errs: &mut Erro
                 if c.len() != len {
                     errs.push(
                         format!("{cptr}/{}", escape_token(name)),
-                        format!("has {} rows but column \"{}\" has {len}; columns are rows read together and must be the same length", c.len(), names[0]),
+                        format!(
+                            "has {} rows but column \"{}\" has {len}; columns are rows read together and must be the same length",
+                            c.len(),
+                            names[0]
+                        ),
                     );
                     ok = false;
                 }
@@ -242,24 +281,40 @@ pub fn parse_data(v: Option<&Value>, ptr: &str, limits: &Limits, errs: &mut Erro
                             Some(k) => out.push(k),
                             None => {
                                 ok = false;
-                                errs.push(format!("{ptr}/counts/{i}"), format!("must be a whole number of observations (0 or more); got {}", describe(c)));
+                                errs.push(
+                                    format!("{ptr}/counts/{i}"),
+                                    format!("must be a whole number of observations (0 or more); got {}", describe(c)),
+                                );
                             }
                         }
                     }
                     ok.then_some(out)
                 }
                 Some(other) => {
-                    errs.push(format!("{ptr}/counts"), format!("must be an array of whole numbers; got {}", describe(other)));
+                    errs.push(
+                        format!("{ptr}/counts"),
+                        format!("must be an array of whole numbers; got {}", describe(other)),
+                    );
                     None
                 }
                 None => {
-                    errs.push(format!("{ptr}/counts"), "is required with values: how often each value was observed");
+                    errs.push(
+                        format!("{ptr}/counts"),
+                        "is required with values: how often each value was observed",
+                    );
                     None
                 }
             };
             let (values, counts) = (values?, counts?);
             if values.len() != counts.len() {
-                errs.push(format!("{ptr}/counts"), format!("has {} entries but values has {}; give one count per value", counts.len(), values.len()));
+                errs.push(
+                    format!("{ptr}/counts"),
+                    format!(
+                        "has {} entries but values has {}; give one count per value",
+                        counts.len(),
+                        values.len()
+                    ),
+                );
                 return None;
             }
             let total = counts.iter().try_fold(0u64, |a, c| a.checked_add(*c));
@@ -270,7 +325,10 @@ pub fn parse_data(v: Option<&Value>, ptr: &str, limits: &Limits, errs: &mut Erro
             Sample::Aggregated { values, counts }
         }
         Value::Object(_) => {
-            errs.push(ptr, "an object here must be {\"values\": [...], \"counts\": [...]} or {\"columns\": {...}}");
+            errs.push(
+                ptr,
+                "an object here must be {\"values\": [...], \"counts\": [...]} or {\"columns\": {...}}",
+            );
             return None;
         }
         other => {
@@ -293,7 +351,10 @@ fn string_param(obj: &Map<String, Value>, key: &str, ptr: &str, errs: &mut Error
     match obj.get(key) {
         Some(Value::String(s)) if !s.is_empty() => Some(s.clone()),
         Some(other) => {
-            errs.push(format!("{ptr}/{key}"), format!("must be a column name (a non-empty string); got {}", describe(other)));
+            errs.push(
+                format!("{ptr}/{key}"),
+                format!("must be a column name (a non-empty string); got {}", describe(other)),
+            );
             None
         }
         None => {
@@ -318,12 +379,18 @@ pub fn parse_statistic(v: Option<&Value>, ptr: &str, errs: &mut Errors) -> Optio
             }
         },
         Some(other) => {
-            errs.push(ptr, format!("must be a statistic name or an object with \"name\"; got {}", describe(other)));
+            errs.push(
+                ptr,
+                format!("must be a statistic name or an object with \"name\"; got {}", describe(other)),
+            );
             return None;
         }
     };
     let Some((_, params)) = STATISTICS.iter().find(|(n, _)| *n == name) else {
-        errs.push(name_ptr, format!("unknown statistic {name:?}; the catalogue has {} (GET /v1/catalog)", names()));
+        errs.push(
+            name_ptr,
+            format!("unknown statistic {name:?}; the catalogue has {} (GET /v1/catalog)", names()),
+        );
         return None;
     };
     let mut allowed = vec!["name"];
@@ -334,13 +401,20 @@ pub fn parse_statistic(v: Option<&Value>, ptr: &str, errs: &mut Errors) -> Optio
         match obj.get(key) {
             None if !required => default,
             None => {
-                errs.push(format!("{ptr}/{key}"), format!("is required: a number in [{lo}, {hi}{}", if hi_open { ")" } else { "]" }));
+                errs.push(
+                    format!("{ptr}/{key}"),
+                    format!("is required: a number in [{lo}, {hi}{}", if hi_open { ")" } else { "]" }),
+                );
                 default
             }
             Some(x) => match x.as_f64() {
                 Some(f) if f >= lo && (f < hi || (!hi_open && f == hi)) => f,
                 _ => {
-                    errs.push(format!("{ptr}/{key}"), format!("must be a number in [{lo}, {hi}{}; got {}", if hi_open { ")" } else { "]" }, describe(x)));
+                    let got = x.as_f64().map_or_else(|| describe(x), |f| f.to_string());
+                    errs.push(
+                        format!("{ptr}/{key}"),
+                        format!("must be a number in [{lo}, {hi}{}; got {got}", if hi_open { ")" } else { "]" }),
+                    );
                     default
                 }
             },
@@ -349,15 +423,22 @@ pub fn parse_statistic(v: Option<&Value>, ptr: &str, errs: &mut Errors) -> Optio
     let spec = match name.as_str() {
         "mean" => StatisticSpec::Mean,
         "median" => StatisticSpec::Median,
-        "quantile" => StatisticSpec::Quantile { p: fraction("p", 0.0, 1.0, false, true, 0.5, errs) },
-        "trimmed_mean" => StatisticSpec::TrimmedMean { trim: fraction("trim", 0.0, 0.5, true, false, 0.1, errs) },
+        "quantile" => StatisticSpec::Quantile {
+            p: fraction("p", 0.0, 1.0, false, true, 0.5, errs),
+        },
+        "trimmed_mean" => StatisticSpec::TrimmedMean {
+            trim: fraction("trim", 0.0, 0.5, true, false, 0.1, errs),
+        },
         "variance" | "std_dev" => {
             let ddof = match obj.get("ddof") {
                 None => 0,
                 Some(x) => match x.as_u64() {
                     Some(d @ (0 | 1)) => d as u32,
                     _ => {
-                        errs.push(format!("{ptr}/ddof"), format!("must be 0 (plug-in, divide by n) or 1 (divide by n − 1); got {}", describe(x)));
+                        errs.push(
+                            format!("{ptr}/ddof"),
+                            format!("must be 0 (plug-in, divide by n) or 1 (divide by n − 1); got {}", describe(x)),
+                        );
                         0
                     }
                 },
@@ -374,7 +455,13 @@ pub fn parse_statistic(v: Option<&Value>, ptr: &str, errs: &mut Errors) -> Optio
                 Some(Value::String(s)) if s == "raw" => false,
                 Some(Value::String(s)) if s == "normal" => true,
                 Some(x) => {
-                    errs.push(format!("{ptr}/scale"), format!("must be \"raw\" or \"normal\" (× 1.4826, consistent for σ under normality); got {}", describe(x)));
+                    errs.push(
+                        format!("{ptr}/scale"),
+                        format!(
+                            "must be \"raw\" or \"normal\" (× 1.4826, consistent for σ under normality); got {}",
+                            describe(x)
+                        ),
+                    );
                     false
                 }
             };
@@ -387,7 +474,10 @@ pub fn parse_statistic(v: Option<&Value>, ptr: &str, errs: &mut Errors) -> Optio
         "ratio" => {
             let n = string_param(obj, "numerator", ptr, errs);
             let d = string_param(obj, "denominator", ptr, errs);
-            StatisticSpec::Ratio { numerator: n.unwrap_or_default(), denominator: d.unwrap_or_default() }
+            StatisticSpec::Ratio {
+                numerator: n.unwrap_or_default(),
+                denominator: d.unwrap_or_default(),
+            }
         }
         "correlation" => {
             let x = string_param(obj, "x", ptr, errs);
@@ -397,16 +487,26 @@ pub fn parse_statistic(v: Option<&Value>, ptr: &str, errs: &mut Errors) -> Optio
                 Some(Value::String(s)) if s == "pearson" => false,
                 Some(Value::String(s)) if s == "spearman" => true,
                 Some(k) => {
-                    errs.push(format!("{ptr}/kind"), format!("must be \"pearson\" or \"spearman\"; got {}", describe(k)));
+                    errs.push(
+                        format!("{ptr}/kind"),
+                        format!("must be \"pearson\" or \"spearman\"; got {}", describe(k)),
+                    );
                     false
                 }
             };
-            StatisticSpec::Correlation { x: x.unwrap_or_default(), y: y.unwrap_or_default(), spearman }
+            StatisticSpec::Correlation {
+                x: x.unwrap_or_default(),
+                y: y.unwrap_or_default(),
+                spearman,
+            }
         }
         "slope" => {
             let x = string_param(obj, "x", ptr, errs);
             let y = string_param(obj, "y", ptr, errs);
-            StatisticSpec::Slope { x: x.unwrap_or_default(), y: y.unwrap_or_default() }
+            StatisticSpec::Slope {
+                x: x.unwrap_or_default(),
+                y: y.unwrap_or_default(),
+            }
         }
         _ => unreachable!("checked against the catalogue"),
     };
@@ -454,7 +554,10 @@ pub fn parse_scheme(v: Option<&Value>, ptr: &str, errs: &mut Errors) -> Option<S
         None => return Some(SchemeSpec::Iid),
         Some(Value::Object(o)) => o,
         Some(other) => {
-            errs.push(ptr, format!("must be an object such as {{\"kind\": \"iid\"}}; got {}", describe(other)));
+            errs.push(
+                ptr,
+                format!("must be an object such as {{\"kind\": \"iid\"}}; got {}", describe(other)),
+            );
             return None;
         }
     };
@@ -467,7 +570,10 @@ pub fn parse_scheme(v: Option<&Value>, ptr: &str, errs: &mut Errors) -> Option<S
     };
     match SCHEMES.iter().find(|(k, _)| *k == kind) {
         None => {
-            errs.push(format!("{ptr}/kind"), format!("unknown scheme {kind:?}; the schemes are {}", kinds()));
+            errs.push(
+                format!("{ptr}/kind"),
+                format!("unknown scheme {kind:?}; the schemes are {}", kinds()),
+            );
             None
         }
         Some((_, false)) => {
@@ -485,11 +591,19 @@ pub fn scheme_json(s: SchemeSpec) -> Value {
     serde_json::json!({ "kind": s.name() })
 }
 
+/// A whole number in [lo, hi]. Integral floats (7.0, as some JSON writers send integers) are
+/// accepted; below 2^53 they are exact.
 fn positive_integer(v: &Value, ptr: &str, lo: u64, hi: u64, what: &str, errs: &mut Errors) -> Option<u64> {
-    match v.as_u64() {
+    let whole = v.as_u64().or_else(|| {
+        v.as_f64()
+            .filter(|f| f.fract() == 0.0 && *f >= 0.0 && *f < 9007199254740992.0)
+            .map(|f| f as u64)
+    });
+    match whole {
         Some(k) if k >= lo && k <= hi => Some(k),
         _ => {
             let got = match v.as_f64() {
+                Some(f) if f.fract() != 0.0 => format!("{f}, which is not whole"),
                 Some(f) => format!("{f}"),
                 None => describe(v),
             };
@@ -513,7 +627,13 @@ pub fn parse_params(obj: &Map<String, Value>, limits: &Limits, errs: &mut Errors
                 Some(t) => match t.as_f64() {
                     Some(x) if x > 0.0 && x < 1.0 => Some(x),
                     _ => {
-                        errs.push("/target_mc_error", format!("must be a number strictly between 0 and 1 (a share of the standard error); got {}", describe(t)));
+                        errs.push(
+                            "/target_mc_error",
+                            format!(
+                                "must be a number strictly between 0 and 1 (a share of the standard error); got {}",
+                                describe(t)
+                            ),
+                        );
                         None
                     }
                 },
@@ -521,9 +641,17 @@ pub fn parse_params(obj: &Map<String, Value>, limits: &Limits, errs: &mut Errors
             target.map(|target| Resamples::Auto { target })
         }
         Some(Value::String(s)) if s == "exact" => Some(Resamples::Exact),
-        Some(v) => positive_integer(v, "/resamples", 1, limits.max_resamples, "the number of resamples (or \"auto\" or \"exact\")", errs).map(Resamples::Fixed),
+        Some(v) => positive_integer(
+            v,
+            "/resamples",
+            2,
+            limits.max_resamples,
+            "the number of resamples (or \"auto\" or \"exact\")",
+            errs,
+        )
+        .map(Resamples::Fixed),
     };
-    if obj.contains_key("target_mc_error") && !matches!(resamples, Some(Resamples::Auto { .. })) && obj.get("resamples").is_some_and(|r| r != "auto") {
+    if obj.contains_key("target_mc_error") && obj.get("resamples").is_none_or(|r| r != "auto") {
         errs.push("/target_mc_error", "only applies with \"resamples\": \"auto\"");
     }
     if resamples == Some(Resamples::Exact) && scheme == Some(SchemeSpec::Bayesian) {
@@ -542,13 +670,25 @@ pub fn parse_params(obj: &Map<String, Value>, limits: &Limits, errs: &mut Errors
             for (i, l) in items.iter().enumerate() {
                 match l.as_f64() {
                     Some(x) if x > 0.0 && x < 1.0 => out.push(x),
-                    _ => errs.push(format!("/levels/{i}"), format!("must be a confidence level strictly between 0 and 1 (0.95, not 95); got {}", l.as_f64().map_or(describe(l), |f| f.to_string()))),
+                    _ => errs.push(
+                        format!("/levels/{i}"),
+                        format!(
+                            "must be a confidence level strictly between 0 and 1 (0.95, not 95); got {}",
+                            l.as_f64().map_or(describe(l), |f| f.to_string())
+                        ),
+                    ),
                 }
             }
             (out.len() == items.len()).then_some(out)
         }
         Some(v) => {
-            errs.push("/levels", format!("must be an array of 1 to 20 confidence levels such as [0.9, 0.95]; got {}", describe(v)));
+            errs.push(
+                "/levels",
+                format!(
+                    "must be an array of 1 to 20 confidence levels such as [0.9, 0.95]; got {}",
+                    describe(v)
+                ),
+            );
             None
         }
     };
@@ -577,7 +717,10 @@ pub fn parse_params(obj: &Map<String, Value>, limits: &Limits, errs: &mut Errors
             ok.then_some(out)
         }
         Some(v) => {
-            errs.push("/methods", format!("must be a non-empty array of method names; got {}", describe(v)));
+            errs.push(
+                "/methods",
+                format!("must be a non-empty array of method names; got {}", describe(v)),
+            );
             None
         }
     };
@@ -594,7 +737,10 @@ pub fn parse_params(obj: &Map<String, Value>, limits: &Limits, errs: &mut Errors
                     Some("replicates") => inc.replicates = true,
                     _ => {
                         ok = false;
-                        errs.push(format!("/include/{i}"), format!("must be \"histogram\", \"cdf\" or \"replicates\"; got {}", describe(it)));
+                        errs.push(
+                            format!("/include/{i}"),
+                            format!("must be \"histogram\", \"cdf\" or \"replicates\"; got {}", describe(it)),
+                        );
                     }
                 }
             }
@@ -608,7 +754,15 @@ pub fn parse_params(obj: &Map<String, Value>, limits: &Limits, errs: &mut Errors
 
     let inner_resamples = match obj.get("inner_resamples") {
         None => Some(DEFAULT_INNER_RESAMPLES),
-        Some(v) => positive_integer(v, "/inner_resamples", 10, 1000, "the nested bootstrap size for studentized intervals", errs).map(|k| k as usize),
+        Some(v) => positive_integer(
+            v,
+            "/inner_resamples",
+            10,
+            1000,
+            "the nested bootstrap size for studentized intervals",
+            errs,
+        )
+        .map(|k| k as usize),
     };
 
     if errs.0.len() != before {
@@ -640,14 +794,20 @@ pub fn parse_interval(body: &Value, limits: &Limits) -> Result<IntervalRequest, 
         None => None,
         Some(Value::String(s)) => Some(s.clone()),
         Some(v) => {
-            errs.push("/token", format!("must be the token string of an earlier response; got {}", describe(v)));
+            errs.push(
+                "/token",
+                format!("must be the token string of an earlier response; got {}", describe(v)),
+            );
             None
         }
     };
     let params = if token.is_some() {
         for k in TOKEN_REPLACES {
             if obj.contains_key(*k) {
-                errs.push(format!("/{k}"), "a token stands in for this parameter; send either the token or the parameters, not both");
+                errs.push(
+                    format!("/{k}"),
+                    "a token stands in for this parameter; send either the token or the parameters, not both",
+                );
             }
         }
         None
@@ -657,7 +817,8 @@ pub fn parse_interval(body: &Value, limits: &Limits) -> Result<IntervalRequest, 
 
     let time_limit_ms = match obj.get("time_limit_ms") {
         None => Some(limits.default_time_limit_ms),
-        Some(v) => positive_integer(v, "/time_limit_ms", 1, u64::MAX >> 11, "a time limit in milliseconds", &mut errs).map(|t| t.min(limits.max_time_limit_ms)),
+        Some(v) => positive_integer(v, "/time_limit_ms", 1, u64::MAX >> 11, "a time limit in milliseconds", &mut errs)
+            .map(|t| t.min(limits.max_time_limit_ms)),
     };
     let on_time_limit = match obj.get("on_time_limit") {
         None => Some(OnTimeLimit::Fail),
@@ -707,7 +868,10 @@ pub fn quote_non_finite_literals(text: &str) -> Option<String> {
             continue;
         }
         // Literals start with an ASCII byte, so `i` and `last` are always char boundaries.
-        match ["-Infinity", "Infinity", "NaN"].into_iter().find(|lit| bytes[i..].starts_with(lit.as_bytes())) {
+        match ["-Infinity", "Infinity", "NaN"]
+            .into_iter()
+            .find(|lit| bytes[i..].starts_with(lit.as_bytes()))
+        {
             Some(lit) => {
                 out.push_str(&text[last..i]);
                 out.push('"');

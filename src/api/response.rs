@@ -140,9 +140,19 @@ impl IntervalResponse {
                 studentized_standard_error: o.diagnostics.studentized_standard_error,
                 inner_resamples: o.diagnostics.inner_resamples,
                 stop: o.stop.name(),
-                warnings: o.diagnostics.warnings.into_iter().map(|w| WarningJson { code: w.code, message: w.message }).collect(),
+                warnings: o
+                    .diagnostics
+                    .warnings
+                    .into_iter()
+                    .map(|w| WarningJson {
+                        code: w.code,
+                        message: w.message,
+                    })
+                    .collect(),
             },
-            histogram: o.histogram.map(|Histogram { edges, counts, mass }| HistogramJson { edges, counts, mass }),
+            histogram: o
+                .histogram
+                .map(|Histogram { edges, counts, mass }| HistogramJson { edges, counts, mass }),
             cdf: o.cdf.map(|Cdf { values, probabilities }| CdfJson { values, probabilities }),
             replicates: o.replicates,
             replicate_standard_errors: o.replicate_standard_errors,

@@ -137,11 +137,15 @@ impl Prepared {
                 let mut v = x.clone();
                 v.sort_by(f64::total_cmp);
                 let n = v.len();
-                Prepared::One(SortedColumn { x: v, base: vec![1.0; n], total: n as f64, raw: true })
+                Prepared::One(SortedColumn {
+                    x: v,
+                    base: vec![1.0; n],
+                    total: n as f64,
+                    raw: true,
+                })
             }
             Sample::Aggregated { values, counts } => {
-                let mut pairs: Vec<(f64, u64)> =
-                    values.iter().copied().zip(counts.iter().copied()).filter(|p| p.1 > 0).collect();
+                let mut pairs: Vec<(f64, u64)> = values.iter().copied().zip(counts.iter().copied()).filter(|p| p.1 > 0).collect();
                 pairs.sort_by(|a, b| a.0.total_cmp(&b.0));
                 let total = pairs.iter().map(|p| p.1 as f64).sum();
                 Prepared::One(SortedColumn {
@@ -200,7 +204,10 @@ mod tests {
     fn digest_tells_forms_and_values_apart() {
         let a = Sample::Column(vec![1.0, 2.0]);
         let b = Sample::Column(vec![1.0, 2.000000000000001]);
-        let c = Sample::Aggregated { values: vec![1.0, 2.0], counts: vec![1, 1] };
+        let c = Sample::Aggregated {
+            values: vec![1.0, 2.0],
+            counts: vec![1, 1],
+        };
         assert_eq!(a.digest(), Sample::Column(vec![1.0, 2.0]).digest());
         assert_ne!(a.digest(), b.digest());
         assert_ne!(a.digest(), c.digest());
@@ -208,8 +215,13 @@ mod tests {
 
     #[test]
     fn aggregated_is_sorted_and_drops_zero_counts() {
-        let s = Sample::Aggregated { values: vec![3.0, 1.0, 2.0], counts: vec![2, 5, 0] };
-        let Prepared::One(c) = Prepared::from_sample(&s) else { panic!("one column") };
+        let s = Sample::Aggregated {
+            values: vec![3.0, 1.0, 2.0],
+            counts: vec![2, 5, 0],
+        };
+        let Prepared::One(c) = Prepared::from_sample(&s) else {
+            panic!("one column")
+        };
         assert_eq!(c.x, vec![1.0, 3.0]);
         assert_eq!(c.base, vec![5.0, 2.0]);
         assert_eq!(c.total, 7.0);

@@ -15,7 +15,10 @@ pub struct Warning {
 
 impl Warning {
     pub fn new(code: &'static str, message: impl Into<String>) -> Self {
-        Warning { code, message: message.into() }
+        Warning {
+            code,
+            message: message.into(),
+        }
     }
 }
 

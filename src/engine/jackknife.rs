@@ -53,7 +53,11 @@ pub fn jackknife(stat: &dyn Statistic, data: &Prepared) -> Option<Jackknife> {
     }
     let base = data.base_weights();
     if let Some(values) = stat.jackknife_closed(data) {
-        return Some(Jackknife { values, multiplicity: base, kind: JackknifeKind::ClosedForm });
+        return Some(Jackknife {
+            values,
+            multiplicity: base,
+            kind: JackknifeKind::ClosedForm,
+        });
     }
     let units = data.units();
     if units <= GENERIC_LIMIT {
@@ -69,7 +73,11 @@ pub fn jackknife(stat: &dyn Statistic, data: &Prepared) -> Option<Jackknife> {
                 },
             )
             .collect();
-        return Some(Jackknife { values, multiplicity: base, kind: JackknifeKind::LeaveOneOut });
+        return Some(Jackknife {
+            values,
+            multiplicity: base,
+            kind: JackknifeKind::LeaveOneOut,
+        });
     }
     let values: Vec<f64> = (0..GROUPS)
         .into_par_iter()
@@ -87,5 +95,9 @@ pub fn jackknife(stat: &dyn Statistic, data: &Prepared) -> Option<Jackknife> {
             },
         )
         .collect();
-    Some(Jackknife { values, multiplicity: vec![1.0; GROUPS], kind: JackknifeKind::Grouped { groups: GROUPS } })
+    Some(Jackknife {
+        values,
+        multiplicity: vec![1.0; GROUPS],
+        kind: JackknifeKind::Grouped { groups: GROUPS },
+    })
 }

@@ -38,7 +38,9 @@ pub enum Resamples {
     Fixed(u64),
     /// Grow (doubling from 1000) until every endpoint's Monte Carlo error is below
     /// `target` × the standard error, or a limit is reached.
-    Auto { target: f64 },
+    Auto {
+        target: f64,
+    },
     /// Enumerate every distinct resample with its probability.
     Exact,
 }
@@ -84,7 +86,9 @@ impl Stop {
         }
     }
     pub fn from_name(s: &str) -> Option<Stop> {
-        [Stop::Done, Stop::TimeLimit, Stop::AutoTarget, Stop::AutoLimit, Stop::AutoTime].into_iter().find(|x| x.name() == s)
+        [Stop::Done, Stop::TimeLimit, Stop::AutoTarget, Stop::AutoLimit, Stop::AutoTime]
+            .into_iter()
+            .find(|x| x.name() == s)
     }
 }
 
@@ -243,7 +247,11 @@ impl Context<'_> {
         let mut rng = replicate_stream(self.seed, i);
         scheme::draw(self.scheme, self.data, &mut rng, &mut wk.w);
         let v = self.stat.evaluate(self.data, &wk.w, &mut wk.scratch);
-        let se = if self.studentized { self.replicate_se(&mut rng, wk) } else { f64::NAN };
+        let se = if self.studentized {
+            self.replicate_se(&mut rng, wk)
+        } else {
+            f64::NAN
+        };
         (v, se)
     }
 
@@ -358,7 +366,11 @@ pub fn run(job: &Job) -> Result<Outcome, RunError> {
         studentized,
         inner: job.inner_resamples,
     };
-    let jack = if job.methods.contains(&Method::Bca) { jackknife::jackknife(stat.as_ref(), &data) } else { None };
+    let jack = if job.methods.contains(&Method::Bca) {
+        jackknife::jackknife(stat.as_ref(), &data)
+    } else {
+        None
+    };
     let acceleration = jack.as_ref().map(|j| bca::acceleration(&j.values, &j.multiplicity));
 
     let mut values = Vec::new();
@@ -370,7 +382,10 @@ pub fn run(job: &Job) -> Result<Outcome, RunError> {
             let size = data.total() as u64;
             let count = exact::count(size, data.units());
             if count.is_none_or(|c| c > job.max_resamples) {
-                return Err(RunError::ExactTooLarge { count, limit: job.max_resamples });
+                return Err(RunError::ExactTooLarge {
+                    count,
+                    limit: job.max_resamples,
+                });
             }
             let mut p = Vec::new();
             let mut wk = Worker::new(data.units());
@@ -399,7 +414,10 @@ pub fn run(job: &Job) -> Result<Outcome, RunError> {
             }
             if timed_out {
                 // A partial enumeration is not a distribution; there is no useful prefix.
-                return Err(RunError::TimeLimit { done: index, requested: count.unwrap_or(0) });
+                return Err(RunError::TimeLimit {
+                    done: index,
+                    requested: count.unwrap_or(0),
+                });
             }
             probs = Some(p);
             stop = Stop::Done;
@@ -411,7 +429,10 @@ pub fn run(job: &Job) -> Result<Outcome, RunError> {
             } else if job.on_time_limit == OnTimeLimit::Partial && !values.is_empty() {
                 stop = Stop::TimeLimit;
             } else {
-                return Err(RunError::TimeLimit { done: values.len() as u64, requested: b });
+                return Err(RunError::TimeLimit {
+                    done: values.len() as u64,
+                    requested: b,
+                });
             }
         }
         Resamples::Auto { target } => {
@@ -424,12 +445,24 @@ pub fn run(job: &Job) -> Result<Outcome, RunError> {
                             stop = Stop::TimeLimit;
                             break;
                         }
-                        return Err(RunError::TimeLimit { done: values.len() as u64, requested: goal });
+                        return Err(RunError::TimeLimit {
+                            done: values.len() as u64,
+                            requested: goal,
+                        });
                     }
                     stop = Stop::AutoTime;
                     break;
                 }
-                let summary = summarize(job, &ctx, estimate, &values, &ses, None, acceleration, jack.as_ref().map(|j| j.kind));
+                let summary = summarize(
+                    job,
+                    &ctx,
+                    estimate,
+                    &values,
+                    &ses,
+                    None,
+                    acceleration,
+                    jack.as_ref().map(|j| j.kind),
+                );
                 if let Ok(s) = &summary {
                     let worst = s
                         .intervals
@@ -449,7 +482,16 @@ pub fn run(job: &Job) -> Result<Outcome, RunError> {
             }
         }
     }
-    let mut out = summarize(job, &ctx, estimate, &values, &ses, probs.as_deref(), acceleration, jack.as_ref().map(|j| j.kind))?;
+    let mut out = summarize(
+        job,
+        &ctx,
+        estimate,
+        &values,
+        &ses,
+        probs.as_deref(),
+        acceleration,
+        jack.as_ref().map(|j| j.kind),
+    )?;
     out.stop = stop;
     out.complete = stop != Stop::TimeLimit;
     match stop {
@@ -503,7 +545,11 @@ fn summarize(
     let bias_mc = montecarlo::bias_mc_error(&dist);
 
     let (z0, z0_clamped) = bca::z0(&dist, estimate);
-    let bca_constants = bca::BcaConstants { z0, acceleration: acceleration.unwrap_or(0.0), z0_clamped };
+    let bca_constants = bca::BcaConstants {
+        z0,
+        acceleration: acceleration.unwrap_or(0.0),
+        z0_clamped,
+    };
 
     // Studentized: t* over replicates with a positive, finite se*.
     let mut studentized_dropped = 0;
@@ -551,19 +597,34 @@ fn summarize(
                 Method::Studentized => match &t_dist {
                     Some(t) => interval::studentized::interval(t, estimate, se_hat, level),
                     // Every se* was zero: the resamples do not vary, nor does the interval.
-                    None => Endpoints { lower: estimate, upper: estimate, lower_mc_error: 0.0, upper_mc_error: 0.0, quantile_levels: None },
+                    None => Endpoints {
+                        lower: estimate,
+                        upper: estimate,
+                        lower_mc_error: 0.0,
+                        upper_mc_error: 0.0,
+                        quantile_levels: None,
+                    },
                 },
             };
-            intervals.push(IntervalResult { method: *method, level, endpoints });
+            intervals.push(IntervalResult {
+                method: *method,
+                level,
+                endpoints,
+            });
         }
     }
 
     let one_column = job.sample.column_in_order();
     let constant_data = match &job.sample {
         Sample::Column(x) => x.iter().all(|v| *v == x[0]),
-        Sample::Aggregated { values, counts } => {
-            values.iter().zip(counts).filter(|(_, c)| **c > 0).map(|(v, _)| *v).collect::<Vec<_>>().windows(2).all(|w| w[0] == w[1])
-        }
+        Sample::Aggregated { values, counts } => values
+            .iter()
+            .zip(counts)
+            .filter(|(_, c)| **c > 0)
+            .map(|(v, _)| *v)
+            .collect::<Vec<_>>()
+            .windows(2)
+            .all(|w| w[0] == w[1]),
         Sample::Columns { columns, .. } => columns.iter().all(|c| c.iter().all(|v| *v == c[0])),
     };
     let lag1 = match (&job.sample, job.scheme) {
@@ -609,12 +670,18 @@ fn summarize(
         intervals,
         diagnostics: Diagnostics {
             z0,
-            acceleration: if job.methods.contains(&Method::Bca) { Some(bca_constants.acceleration) } else { None },
+            acceleration: if job.methods.contains(&Method::Bca) {
+                Some(bca_constants.acceleration)
+            } else {
+                None
+            },
             replicate_skewness: dist.skewness(),
             distinct_replicate_values: dist.distinct(),
             undefined_replicates: undefined,
             jackknife: jack_kind,
-            studentized_standard_error: ctx.studentized.then(|| if ctx.stat.has_analytic_se() { "analytic" } else { "nested" }),
+            studentized_standard_error: ctx
+                .studentized
+                .then(|| if ctx.stat.has_analytic_se() { "analytic" } else { "nested" }),
             inner_resamples: (ctx.studentized && !ctx.stat.has_analytic_se()).then_some(ctx.inner),
             warnings,
         },
@@ -631,14 +698,22 @@ fn summarize(
 fn histogram(dist: &ReplicateDistribution) -> Histogram {
     let sorted = dist.sorted();
     let (lo, hi) = (dist.min(), dist.max());
-    let bins = if hi > lo { ((2.0 * (sorted.len() as f64).cbrt()).ceil() as usize).clamp(10, 200) } else { 1 };
+    let bins = if hi > lo {
+        ((2.0 * (sorted.len() as f64).cbrt()).ceil() as usize).clamp(10, 200)
+    } else {
+        1
+    };
     let width = (hi - lo) / bins as f64;
     let edges: Vec<f64> = (0..=bins).map(|k| if k == bins { hi } else { lo + width * k as f64 }).collect();
     let mut counts = vec![0u64; bins];
     let mut mass = vec![0.0; bins];
     let mut prev = 0.0;
     for (i, v) in sorted.iter().enumerate() {
-        let k = if width > 0.0 { (((v - lo) / width) as usize).min(bins - 1) } else { 0 };
+        let k = if width > 0.0 {
+            (((v - lo) / width) as usize).min(bins - 1)
+        } else {
+            0
+        };
         counts[k] += 1;
         mass[k] += match dist.cumulative() {
             Some(c) => {

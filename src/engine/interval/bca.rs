@@ -70,7 +70,11 @@ fn endpoint_mc_error(dist: &ReplicateDistribution, q: f64, level: f64, c: &BcaCo
     // Slope of the replicate quantile function at `level`, from the same order statistics.
     let s = (level * (1.0 - level) / b).sqrt().max(0.5 / b);
     let (lo, hi) = ((level - s).max(0.0), (level + s).min(1.0));
-    let slope = if hi > lo { (dist.quantile(hi) - dist.quantile(lo)) / (hi - lo) } else { 0.0 };
+    let slope = if hi > lo {
+        (dist.quantile(hi) - dist.quantile(lo)) / (hi - lo)
+    } else {
+        0.0
+    };
     let zq = normal_dist::quantile(q);
     let u = c.z0 + zq;
     let denom = 1.0 - c.acceleration * u;
@@ -104,7 +108,11 @@ mod tests {
 
     #[test]
     fn no_bias_no_acceleration_is_the_percentile_interval() {
-        let c = BcaConstants { z0: 0.0, acceleration: 0.0, z0_clamped: false };
+        let c = BcaConstants {
+            z0: 0.0,
+            acceleration: 0.0,
+            z0_clamped: false,
+        };
         // Φ(Φ⁻¹(q)) round-trips in statrs 0.18 to about 2e-12.
         let d = adjusted_level(0.05, &c) - 0.05;
         assert!(d.abs() < 1e-10, "{d}");

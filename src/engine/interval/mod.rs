@@ -78,7 +78,12 @@ impl ReplicateDistribution {
         let mean = values.iter().sum::<f64>() / b;
         let ss: f64 = values.iter().map(|v| (v - mean) * (v - mean)).sum();
         let sd = if sorted.len() > 1 { (ss / (b - 1.0)).sqrt() } else { 0.0 };
-        ReplicateDistribution { sorted, cumulative: None, mean, sd }
+        ReplicateDistribution {
+            sorted,
+            cumulative: None,
+            mean,
+            sd,
+        }
     }
 
     /// Exactly enumerated replicates with probabilities (adding up to one). `sd` is the
@@ -97,7 +102,12 @@ impl ReplicateDistribution {
             cumulative.push(cum);
             sorted.push(values[i]);
         }
-        ReplicateDistribution { sorted, cumulative: Some(cumulative), mean, sd: var.max(0.0).sqrt() }
+        ReplicateDistribution {
+            sorted,
+            cumulative: Some(cumulative),
+            mean,
+            sd: var.max(0.0).sqrt(),
+        }
     }
 
     pub fn len(&self) -> usize {

@@ -13,5 +13,11 @@ pub fn interval(estimate: f64, bias: f64, se: f64, bias_mc: f64, se_mc: f64, lev
     let z = normal_dist::quantile(1.0 - (1.0 - level) / 2.0);
     let centre = estimate - bias;
     let mc = (bias_mc * bias_mc + z * z * se_mc * se_mc).sqrt();
-    Endpoints { lower: centre - z * se, upper: centre + z * se, lower_mc_error: mc, upper_mc_error: mc, quantile_levels: None }
+    Endpoints {
+        lower: centre - z * se,
+        upper: centre + z * se,
+        lower_mc_error: mc,
+        upper_mc_error: mc,
+        quantile_levels: None,
+    }
 }

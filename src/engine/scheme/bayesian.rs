@@ -24,7 +24,11 @@ pub fn draw_rows(rng: &mut ChaCha8Rng, w: &mut [f64]) {
 pub fn draw_counts(rng: &mut ChaCha8Rng, counts: &[f64], total: f64, w: &mut [f64]) {
     let mut s = 0.0;
     for (wi, c) in w.iter_mut().zip(counts) {
-        let g: f64 = if *c == 1.0 { Exp1.sample(rng) } else { Gamma::new(*c, 1.0).expect("c > 0").sample(rng) };
+        let g: f64 = if *c == 1.0 {
+            Exp1.sample(rng)
+        } else {
+            Gamma::new(*c, 1.0).expect("c > 0").sample(rng)
+        };
         *wi = g;
         s += g;
     }

@@ -17,7 +17,10 @@ pub fn build(spec: &StatisticSpec, t: &RowTable) -> Result<Box<dyn Statistic>, V
     let mut problems = Vec::new();
     let constant = |c: &[f64]| c.iter().all(|v| *v == c[0]);
     if t.rows < 2 {
-        problems.push(DataProblem::new(DataLocation::Whole, format!("{} needs at least 2 rows", spec.name())));
+        problems.push(DataProblem::new(
+            DataLocation::Whole,
+            format!("{} needs at least 2 rows", spec.name()),
+        ));
         return Err(problems);
     }
     let stat: Box<dyn Statistic> = match spec {
@@ -28,7 +31,10 @@ pub fn build(spec: &StatisticSpec, t: &RowTable) -> Result<Box<dyn Statistic>, V
                     "the denominator column sums to 0, so the ratio of sums is undefined",
                 ));
             }
-            Box::new(Ratio { x: index(numerator), y: index(denominator) })
+            Box::new(Ratio {
+                x: index(numerator),
+                y: index(denominator),
+            })
         }
         StatisticSpec::Correlation { x, y, spearman } => {
             for (name, c) in [(x, cols[0]), (y, cols[1])] {
@@ -77,7 +83,12 @@ fn jackknife_sums(x: &[f64], y: &[f64]) -> Vec<(f64, f64, f64, f64)> {
         .map(|(xi, yi)| {
             let (dx, dy) = (xi - mx, yi - my);
             let (tx, ty) = (sx - dx, sy - dy);
-            (n1, sxx - dx * dx - tx * tx / n1, syy - dy * dy - ty * ty / n1, sxy - dx * dy - tx * ty / n1)
+            (
+                n1,
+                sxx - dx * dx - tx * tx / n1,
+                syy - dy * dy - ty * ty / n1,
+                sxy - dx * dy - tx * ty / n1,
+            )
         })
         .collect()
 }
@@ -167,7 +178,12 @@ impl Statistic for Slope {
     }
     fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
         let t = table(data);
-        Some(jackknife_sums(&t.columns[self.x], &t.columns[self.y]).into_iter().map(|(_, sxx, _, sxy)| sxy / sxx).collect())
+        Some(
+            jackknife_sums(&t.columns[self.x], &t.columns[self.y])
+                .into_iter()
+                .map(|(_, sxx, _, sxy)| sxy / sxx)
+                .collect(),
+        )
     }
     /// Heteroscedasticity-consistent (HC0) standard error, √(Σw·dx²·e²)/Sxx (White, H. (1980),
     /// Econometrica 48(4)), which stays valid when the spread of y changes with x.
@@ -205,7 +221,12 @@ impl Spearman {
             o.sort_by(|a, b| c[*a as usize].total_cmp(&c[*b as usize]));
             o
         };
-        Spearman { x: xi, y: yi, order_x: order(x), order_y: order(y) }
+        Spearman {
+            x: xi,
+            y: yi,
+            order_x: order(x),
+            order_y: order(y),
+        }
     }
 }
 
@@ -253,9 +274,16 @@ mod tests {
 
     fn law_school() -> Prepared {
         // Efron & Tibshirani (1993), Table 3.1.
-        let lsat = vec![576., 635., 558., 578., 666., 580., 555., 661., 651., 605., 653., 575., 545., 572., 594.];
-        let gpa = vec![3.39, 3.30, 2.81, 3.03, 3.44, 3.07, 3.00, 3.43, 3.36, 3.13, 3.12, 2.74, 2.76, 2.88, 2.96];
-        Prepared::from_sample(&Sample::Columns { names: vec!["lsat".into(), "gpa".into()], columns: vec![lsat, gpa] })
+        let lsat = vec![
+            576., 635., 558., 578., 666., 580., 555., 661., 651., 605., 653., 575., 545., 572., 594.,
+        ];
+        let gpa = vec![
+            3.39, 3.30, 2.81, 3.03, 3.44, 3.07, 3.00, 3.43, 3.36, 3.13, 3.12, 2.74, 2.76, 2.88, 2.96,
+        ];
+        Prepared::from_sample(&Sample::Columns {
+            names: vec!["lsat".into(), "gpa".into()],
+            columns: vec![lsat, gpa],
+        })
     }
 
     #[test]
@@ -275,8 +303,11 @@ mod tests {
         let s = Spearman::new(&[1., 2., 3., 4., 5.], &[1., 4., 9., 16., 100.], 0, 1);
         assert!((s.evaluate(&d, &d.base_weights(), &mut Scratch::default()) - 1.0).abs() < 1e-12);
         let d = law_school();
-        let stats: Vec<Box<dyn Statistic>> =
-            vec![Box::new(Pearson { x: 0, y: 1 }), Box::new(Slope { x: 0, y: 1 }), Box::new(Ratio { x: 1, y: 0 })];
+        let stats: Vec<Box<dyn Statistic>> = vec![
+            Box::new(Pearson { x: 0, y: 1 }),
+            Box::new(Slope { x: 0, y: 1 }),
+            Box::new(Ratio { x: 1, y: 0 }),
+        ];
         for st in &stats {
             let jack = st.jackknife_closed(&d).unwrap();
             for i in 0..15 {

@@ -97,7 +97,9 @@ pub struct GeometricMean {
 
 impl GeometricMean {
     pub fn new(data: &Prepared) -> Self {
-        GeometricMean { ln_x: one(data).x.iter().map(|v| v.ln()).collect() }
+        GeometricMean {
+            ln_x: one(data).x.iter().map(|v| v.ln()).collect(),
+        }
     }
 }
 

@@ -125,10 +125,7 @@ impl StatisticSpec {
     pub fn shift_equivariant(&self) -> bool {
         matches!(
             self,
-            StatisticSpec::Mean
-                | StatisticSpec::Median
-                | StatisticSpec::Quantile { .. }
-                | StatisticSpec::TrimmedMean { .. }
+            StatisticSpec::Mean | StatisticSpec::Median | StatisticSpec::Quantile { .. } | StatisticSpec::TrimmedMean { .. }
         )
     }
 }
@@ -155,7 +152,10 @@ pub struct DataProblem {
 
 impl DataProblem {
     pub fn new(location: DataLocation, message: impl Into<String>) -> Self {
-        DataProblem { location, message: message.into() }
+        DataProblem {
+            location,
+            message: message.into(),
+        }
     }
 }
 
@@ -168,7 +168,10 @@ pub struct Scratch {
 
 impl Scratch {
     pub fn with_units(units: usize) -> Self {
-        Scratch { a: Vec::with_capacity(units), b: Vec::with_capacity(units) }
+        Scratch {
+            a: Vec::with_capacity(units),
+            b: Vec::with_capacity(units),
+        }
     }
 }
 
@@ -230,11 +233,17 @@ pub fn build(spec: &StatisticSpec, sample: &Sample, data: &Prepared) -> Result<B
                 StatisticSpec::Median => Box::new(quantile::Quantile { p: 0.5 }),
                 StatisticSpec::Quantile { p } => Box::new(quantile::Quantile { p: *p }),
                 StatisticSpec::Iqr => Box::new(quantile::Iqr),
-                StatisticSpec::Mad { normal_scale } => {
-                    Box::new(quantile::Mad { scale: if *normal_scale { MAD_NORMAL_SCALE } else { 1.0 } })
-                }
-                StatisticSpec::Variance { ddof } => Box::new(spread::Variance { ddof: *ddof as f64, root: false }),
-                StatisticSpec::StdDev { ddof } => Box::new(spread::Variance { ddof: *ddof as f64, root: true }),
+                StatisticSpec::Mad { normal_scale } => Box::new(quantile::Mad {
+                    scale: if *normal_scale { MAD_NORMAL_SCALE } else { 1.0 },
+                }),
+                StatisticSpec::Variance { ddof } => Box::new(spread::Variance {
+                    ddof: *ddof as f64,
+                    root: false,
+                }),
+                StatisticSpec::StdDev { ddof } => Box::new(spread::Variance {
+                    ddof: *ddof as f64,
+                    root: true,
+                }),
                 StatisticSpec::CoefficientOfVariation => Box::new(spread::CoefficientOfVariation),
                 _ => unreachable!("column statistics handled above"),
             })
@@ -250,7 +259,9 @@ fn check_one_column(spec: &StatisticSpec, values: &[f64], data: &Prepared) -> Re
                 if *v <= 0.0 {
                     problems.push(DataProblem::new(
                         DataLocation::Value(i),
-                        format!("the geometric mean needs positive values; {v} is not (drop or shift non-positive values, or use the median)"),
+                        format!(
+                            "the geometric mean needs positive values; {v} is not (drop or shift non-positive values, or use the median)"
+                        ),
                     ));
                 }
             }

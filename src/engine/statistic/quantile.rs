@@ -200,7 +200,10 @@ mod tests {
 
     #[test]
     fn aggregated_equals_expanded() {
-        let agg = Prepared::from_sample(&Sample::Aggregated { values: vec![5., 1., 3.], counts: vec![2, 3, 4] });
+        let agg = Prepared::from_sample(&Sample::Aggregated {
+            values: vec![5., 1., 3.],
+            counts: vec![2, 3, 4],
+        });
         let raw = prep(&[5., 5., 1., 1., 1., 3., 3., 3., 3.]);
         for p in [0.0, 0.1, 0.33, 0.5, 0.77, 1.0] {
             let a = Quantile { p }.evaluate(&agg, &agg.base_weights(), &mut Scratch::default());
@@ -228,7 +231,10 @@ mod tests {
 
     #[test]
     fn closed_jackknife_matches_direct() {
-        let d = Prepared::from_sample(&Sample::Aggregated { values: vec![1., 2., 3., 7., 9.], counts: vec![1, 3, 1, 2, 4] });
+        let d = Prepared::from_sample(&Sample::Aggregated {
+            values: vec![1., 2., 3., 7., 9.],
+            counts: vec![1, 3, 1, 2, 4],
+        });
         let Prepared::One(c) = &d else { unreachable!() };
         for p in [0.1, 0.25, 0.5, 0.9] {
             let jack = jackknife_quantiles(c, p);

@@ -100,7 +100,12 @@ impl Statistic for CoefficientOfVariation {
         weighted_plugin_variance(&c.x, w).sqrt() / weighted_mean(&c.x, w)
     }
     fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        Some(jackknife_moments(one(data)).into_iter().map(|(m, ss, n)| (ss / n).sqrt() / m).collect())
+        Some(
+            jackknife_moments(one(data))
+                .into_iter()
+                .map(|(m, ss, n)| (ss / n).sqrt() / m)
+                .collect(),
+        )
     }
 }
 
@@ -111,7 +116,10 @@ mod tests {
 
     #[test]
     fn closed_jackknife_matches_direct() {
-        let d = Prepared::from_sample(&Sample::Aggregated { values: vec![1., 2., 3., 7., 9.], counts: vec![1, 3, 1, 2, 4] });
+        let d = Prepared::from_sample(&Sample::Aggregated {
+            values: vec![1., 2., 3., 7., 9.],
+            counts: vec![1, 3, 1, 2, 4],
+        });
         let Prepared::One(c) = &d else { unreachable!() };
         let stats: Vec<Box<dyn Statistic>> = vec![
             Box::new(Variance { ddof: 0.0, root: false }),
