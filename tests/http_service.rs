@@ -408,3 +408,23 @@ async fn responses_are_compressed_when_the_client_asks() {
         .unwrap();
     assert!(r.headers().get("content-encoding").is_none());
 }
+
+#[tokio::test]
+async fn one_and_two_compute_threads_give_identical_responses() {
+    let one = TestApp::spawn_with(|c| c.threads = 1).await;
+    let two = TestApp::spawn_with(|c| c.threads = 2).await;
+    let bodies = [
+        json!({"data": page_loads(300), "statistic": "median", "seed": 11, "resamples": 3000,
+               "methods": ["percentile", "basic", "normal", "bca", "studentized"], "levels": [0.9, 0.99],
+               "include": ["histogram", "cdf", "replicates"]}),
+        json!({"data": {"columns": {"x": page_loads(80), "y": page_loads(80).iter().rev().cloned().collect::<Vec<_>>()}},
+               "statistic": {"name": "slope", "x": "x", "y": "y"}, "seed": 12, "methods": ["bca", "studentized"]}),
+        json!({"data": page_loads(50), "scheme": {"kind": "bayesian"}, "statistic": {"name": "trimmed_mean", "trim": 0.2}, "seed": 13}),
+    ];
+    for body in bodies {
+        let (s1, _, a) = one.post("/v1/interval", &body).await;
+        let (s2, _, b) = two.post("/v1/interval", &body).await;
+        assert_eq!((s1, s2), (200, 200));
+        assert_eq!(common::without_timing(a), common::without_timing(b));
+    }
+}

@@ -36,14 +36,10 @@ pub fn draw(scheme: SchemeSpec, data: &Prepared, rng: &mut ChaCha8Rng, w: &mut V
     w.clear();
     w.resize(data.units(), 0.0);
     match scheme {
-        SchemeSpec::Iid => {
-            if data.raw_rows() {
-                iid::draw_rows(rng, w)
-            } else {
-                let base = data.base_weights();
-                iid::multinomial(rng, data.total() as u64, &base, data.total(), w)
-            }
-        }
+        SchemeSpec::Iid => match data {
+            Prepared::One(c) if !c.raw => iid::multinomial(rng, c.total as u64, &c.base, c.total, w),
+            _ => iid::draw_rows(rng, w),
+        },
         SchemeSpec::Bayesian => match data {
             Prepared::One(c) if !c.raw => bayesian::draw_counts(rng, &c.base, c.total, w),
             _ => bayesian::draw_rows(rng, w),
