@@ -1,5 +1,6 @@
-//! The command line: `bandsaw serve` (the default) and `bandsaw interval`, which runs the same
-//! engine in-process on a request file.
+//! The command line: `bandsaw serve` (the default), `bandsaw interval`, which runs the same
+//! engine in-process on a request file, and `bandsaw openapi`, which prints the API's OpenAPI
+//! document.
 
 use std::io::Read;
 use std::sync::atomic::AtomicBool;
@@ -34,6 +35,25 @@ pub enum Command {
         #[arg(long, short)]
         input: Option<String>,
     },
+    /// Print the OpenAPI 3.1 document of the HTTP API (the same bytes as GET /openapi.json
+    /// and openapi/openapi.json).
+    Openapi,
+}
+
+/// `bandsaw openapi`: print the OpenAPI document.
+pub fn openapi() -> i32 {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out
+        .write_all(crate::api::openapi::document_json().as_bytes())
+        .and_then(|_| out.flush())
+    {
+        Ok(()) => 0,
+        Err(e) => {
+            eprintln!("bandsaw: cannot write the document: {e}");
+            2
+        }
+    }
 }
 
 /// `bandsaw interval`: returns the process exit code (0 success, 1 a problem, 2 unreadable input).

@@ -7,6 +7,7 @@ fn main() {
     let args = Cli::parse();
     match args.command {
         Some(Command::Interval { input }) => std::process::exit(cli::interval(&args.config, input.as_deref())),
+        Some(Command::Openapi) => std::process::exit(cli::openapi()),
         None | Some(Command::Serve) => {
             bandsaw::telemetry::init_logging(&args.config.log_format);
             let runtime = tokio::runtime::Builder::new_multi_thread()

@@ -14,6 +14,27 @@ fn page_loads(n: usize) -> Vec<f64> {
         .collect()
 }
 
+/// The Prometheus text of `/metrics`.
+async fn metrics_text(app: &TestApp) -> String {
+    app.client
+        .get(format!("{}/metrics", app.base))
+        .send()
+        .await
+        .unwrap()
+        .text()
+        .await
+        .unwrap()
+}
+
+/// The value of an unlabelled metric line `name value`.
+fn metric(text: &str, name: &str) -> f64 {
+    let line = text
+        .lines()
+        .find(|l| l.split_whitespace().next() == Some(name))
+        .unwrap_or_else(|| panic!("no {name} in\n{text}"));
+    line.split_whitespace().last().unwrap().parse().unwrap()
+}
+
 /// A request that keeps one compute thread busy for a while (median, nested studentized).
 fn slow_body() -> Value {
     json!({"data": page_loads(4000), "statistic": "median", "resamples": 400, "methods": ["studentized"], "seed": 1, "inner_resamples": 50})
@@ -154,20 +175,7 @@ async fn a_flood_against_a_one_thread_two_deep_server_is_shed_with_retry_after()
     // 1 running + 2 queued are admitted at most at any moment; the rest are shed at once.
     assert!(ok >= 3 && shed >= 1, "ok {ok}, shed {shed}");
     assert_eq!(ready, 503);
-    let text = app
-        .client
-        .get(format!("{}/metrics", app.base))
-        .send()
-        .await
-        .unwrap()
-        .text()
-        .await
-        .unwrap();
-    let shed_metric = text
-        .lines()
-        .find(|l| l.starts_with("bandsaw_jobs_shed_total"))
-        .expect("shed counter");
-    assert_eq!(shed_metric.split_whitespace().last().unwrap().parse::<f64>().unwrap(), shed as f64);
+    assert_eq!(metric(&metrics_text(&app).await, "bandsaw_jobs_shed_total"), shed as f64);
     // Once the flood is over and a second has passed, the server is ready again.
     tokio::time::sleep(Duration::from_millis(1100)).await;
     assert_eq!(app.get("/readyz").await.0, 200);
@@ -200,17 +208,8 @@ async fn a_client_that_disconnects_cancels_its_job() {
     // The one compute thread is free again within about one wave, not after a minute.
     let started = Instant::now();
     loop {
-        let text = app
-            .client
-            .get(format!("{}/metrics", app.base))
-            .send()
-            .await
-            .unwrap()
-            .text()
-            .await
-            .unwrap();
-        let cancelled = text.lines().find(|l| l.starts_with("bandsaw_jobs_cancelled_total")).unwrap();
-        if cancelled.ends_with(" 1") {
+        let cancelled = metric(&metrics_text(&app).await, "bandsaw_jobs_cancelled_total");
+        if cancelled == 1.0 {
             break;
         }
         assert!(started.elapsed() < Duration::from_secs(5), "job not cancelled: {cancelled}");
@@ -293,16 +292,7 @@ async fn a_panic_inside_a_job_is_a_500_for_that_request_only() {
     for _ in 0..3 {
         assert_eq!(app.post("/v1/interval", &body).await.0, 200);
     }
-    let text = app
-        .client
-        .get(format!("{}/metrics", app.base))
-        .send()
-        .await
-        .unwrap()
-        .text()
-        .await
-        .unwrap();
-    assert!(text.lines().any(|l| l == "bandsaw_jobs_panicked_total 1"), "{text}");
+    assert_eq!(metric(&metrics_text(&app).await, "bandsaw_jobs_panicked_total"), 1.0);
 }
 
 #[tokio::test]

@@ -309,6 +309,9 @@ async fn compute_route(
         if !is_json(&headers) {
             return Err(Problem::unsupported_media_type());
         }
+        if app.pool.full() {
+            return Err(app.pool.shed());
+        }
         let bytes = read_body(body, app.max_body_bytes).await?;
         let cancel = Arc::new(AtomicBool::new(false));
         let _guard = CancelOnDrop(cancel.clone());

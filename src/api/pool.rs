@@ -84,15 +84,26 @@ impl ComputePool {
         1 + (self.queue_capacity() / self.threads.max(1)) as u64 / 4
     }
 
+    /// True when a job would be refused now. Checked before reading a request body, so that a
+    /// shed request costs as little as possible; admission itself is decided in [`Self::run`].
+    pub fn full(&self) -> bool {
+        self.admitted.load(Ordering::Acquire) >= self.capacity
+    }
+
+    /// Record a shed job and build its answer.
+    pub fn shed(&self) -> Problem {
+        self.last_shed_ms.store(self.born.elapsed().as_millis() as u64, Ordering::Relaxed);
+        self.metrics.jobs_shed.inc();
+        Problem::overloaded(self.retry_after())
+    }
+
     /// Run `f` on the pool if there is room, without blocking the async runtime. A panic in
     /// `f` becomes a 500 problem for this job only.
     pub async fn run<T: Send + 'static>(&self, f: impl FnOnce() -> Result<T, Problem> + Send + 'static) -> Result<T, Problem> {
         let prev = self.admitted.fetch_add(1, Ordering::AcqRel);
         if prev >= self.capacity {
             self.admitted.fetch_sub(1, Ordering::AcqRel);
-            self.last_shed_ms.store(self.born.elapsed().as_millis() as u64, Ordering::Relaxed);
-            self.metrics.jobs_shed.inc();
-            return Err(Problem::overloaded(self.retry_after()));
+            return Err(self.shed());
         }
         let (tx, rx) = tokio::sync::oneshot::channel();
         let (admitted, running, metrics) = (self.admitted.clone(), self.running.clone(), self.metrics.clone());

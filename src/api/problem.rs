@@ -3,11 +3,16 @@
 use axum::http::{header, HeaderValue, StatusCode};
 use axum::response::{IntoResponse, Response};
 use serde::Serialize;
+use utoipa::ToSchema;
 
 /// One invalid field: a JSON Pointer (RFC 6901) into the request and what is wrong with it.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+#[schema(example = json!({"pointer": "/levels/0", "message": "must be a confidence level strictly between 0 and 1 (0.95, not 95); got 95"}))]
 pub struct FieldError {
+    /// A JSON Pointer into the request ("" for the whole body).
+    #[schema(pattern = "^(/.*)?$")]
     pub pointer: String,
+    /// What is wrong and how to fix it.
     pub message: String,
 }
 
@@ -21,13 +26,21 @@ impl FieldError {
 }
 
 /// A problem document. `type` is a stable relative URI `/problems/<slug>`.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
+#[schema(example = json!({"type": "/problems/invalid-request", "title": "The request is invalid", "status": 422, "detail": "/levels/0: must be a confidence level strictly between 0 and 1 (0.95, not 95); got 95", "errors": [{"pointer": "/levels/0", "message": "must be a confidence level strictly between 0 and 1 (0.95, not 95); got 95"}]}))]
 pub struct Problem {
+    /// A stable relative URI `/problems/<slug>` naming the kind of problem.
     #[serde(rename = "type")]
+    #[schema(pattern = "^/problems/[a-z][a-z-]*$")]
     pub kind: String,
+    /// A short summary of the kind of problem.
     pub title: String,
+    /// The HTTP status code.
+    #[schema(minimum = 400, maximum = 599)]
     pub status: u16,
+    /// What went wrong with this request and what to do about it.
     pub detail: String,
+    /// Every invalid field (validation problems only).
     #[serde(skip_serializing_if = "Vec::is_empty")]
     pub errors: Vec<FieldError>,
     #[serde(skip)]

@@ -2,96 +2,162 @@
 
 use serde::Serialize;
 use serde_json::Value;
+use utoipa::ToSchema;
 
 use crate::engine::jackknife::JackknifeKind;
 use crate::engine::run::{Cdf, Histogram, Outcome};
 
-#[derive(Debug, Clone, Serialize)]
+/// One interval: a method at a level.
+#[derive(Debug, Clone, Serialize, ToSchema)]
+#[schema(as = Interval)]
 pub struct IntervalJson {
+    #[schema(value_type = crate::api::openapi::Method)]
     pub method: &'static str,
+    #[schema(exclusive_minimum = 0, exclusive_maximum = 1)]
     pub level: f64,
     pub lower: f64,
     pub upper: f64,
+    /// Monte Carlo standard error of `lower` due to finite resamples (zero for `"exact"`).
+    #[schema(minimum = 0)]
     pub lower_mc_error: f64,
+    /// Monte Carlo standard error of `upper` due to finite resamples (zero for `"exact"`).
+    #[schema(minimum = 0)]
     pub upper_mc_error: f64,
     /// The replicate quantile levels read for the lower and upper endpoint (percentile, basic,
     /// bca: of the replicates; studentized: of the studentized replicates).
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false, value_type = Option<Vec<f64>>, min_items = 2, max_items = 2)]
     pub quantile_levels: Option<[f64; 2]>,
 }
 
-#[derive(Debug, Clone, Serialize)]
+/// A diagnostic warning.
+#[derive(Debug, Clone, Serialize, ToSchema)]
+#[schema(as = Warning)]
 pub struct WarningJson {
+    #[schema(value_type = crate::api::openapi::WarningCode)]
     pub code: &'static str,
+    /// What the warning means and what to do, for a person.
     pub message: String,
 }
 
-#[derive(Debug, Clone, Serialize)]
+/// How the BCa acceleration's jackknife was computed.
+#[derive(Debug, Clone, Serialize, ToSchema)]
+#[schema(as = Jackknife)]
 pub struct JackknifeJson {
+    #[schema(value_type = crate::api::openapi::JackknifeKind, inline)]
     pub kind: &'static str,
+    /// The number of groups of a grouped jackknife.
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
     pub groups: Option<usize>,
 }
 
-#[derive(Debug, Clone, Serialize)]
+/// Diagnostics of the replicate distribution and of the run.
+#[derive(Debug, Clone, Serialize, ToSchema)]
+#[schema(as = Diagnostics)]
 pub struct DiagnosticsJson {
+    /// The BCa bias correction.
     pub z0: f64,
+    /// The BCa acceleration (absent where it is not computed).
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
     pub acceleration: Option<f64>,
     pub replicate_skewness: f64,
     pub distinct_replicate_values: usize,
+    /// Resamples on which the statistic was undefined (left out of the replicates).
     pub undefined_replicates: u64,
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
     pub jackknife: Option<JackknifeJson>,
+    /// With studentized intervals: how each resample's standard error was had, "analytic" or "nested".
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false, value_type = Option<crate::api::openapi::StandardErrorSource>, inline)]
     pub studentized_standard_error: Option<&'static str>,
+    /// With nested studentized intervals: the inner bootstrap size.
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
     pub inner_resamples: Option<usize>,
     /// Why drawing stopped: "done", "time_limit", "auto_target", "auto_limit", "auto_time".
+    #[schema(value_type = crate::api::openapi::Stop, inline)]
     pub stop: &'static str,
     pub warnings: Vec<WarningJson>,
 }
 
-#[derive(Debug, Clone, Serialize)]
+/// The replicate histogram (`"include": ["histogram"]`): `counts[i]` replicates (of weight
+/// `mass[i]`) lie between `edges[i]` and `edges[i + 1]`.
+#[derive(Debug, Clone, Serialize, ToSchema)]
+#[schema(as = Histogram)]
 pub struct HistogramJson {
     pub edges: Vec<f64>,
     pub counts: Vec<u64>,
     pub mass: Vec<f64>,
 }
 
-#[derive(Debug, Clone, Serialize)]
+/// A downsampled empirical CDF of the replicates (`"include": ["cdf"]`).
+#[derive(Debug, Clone, Serialize, ToSchema)]
+#[schema(as = Cdf)]
 pub struct CdfJson {
     pub values: Vec<f64>,
     pub probabilities: Vec<f64>,
 }
 
-#[derive(Debug, Clone, Serialize)]
+/// The response of `POST /v1/interval` (and the `ok` of a batch job).
+#[derive(Debug, Clone, Serialize, ToSchema)]
 pub struct IntervalResponse {
+    /// The statistic on the data.
     pub estimate: f64,
+    /// Standard deviation of the replicates (divisor B − 1).
+    #[schema(minimum = 0)]
     pub standard_error: f64,
+    #[schema(minimum = 0)]
     pub standard_error_mc_error: f64,
+    /// Mean of the replicates minus the estimate.
     pub bias: f64,
+    #[schema(minimum = 0)]
     pub bias_mc_error: f64,
+    /// The estimate minus the bias.
     pub bias_corrected_estimate: f64,
+    /// Observations (for aggregated data, the sum of the counts; for columns, the rows).
     pub n: u64,
+    /// Resamples drawn (or enumerated, for `"exact"`).
     pub resamples: u64,
+    /// False when the time limit stopped drawing early with `"on_time_limit": "partial"`.
     pub complete: bool,
+    /// One per method and level.
     pub intervals: Vec<IntervalJson>,
+    /// The statistic, normalised: its name and every parameter.
+    #[schema(value_type = crate::api::openapi::StatisticObject)]
     pub statistic: Value,
+    /// The scheme, with `"auto"` block lengths resolved.
+    #[schema(value_type = crate::api::openapi::Scheme)]
     pub scheme: Value,
+    /// The seed used: the request's, or the one the server drew.
+    #[schema(maximum = 9007199254740991_u64)]
     pub seed: u64,
     pub diagnostics: DiagnosticsJson,
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
     pub histogram: Option<HistogramJson>,
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
     pub cdf: Option<CdfJson>,
+    /// Every replicate value in stream order (`"include": ["replicates"]`).
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
     pub replicates: Option<Vec<f64>>,
+    /// With `replicates` and studentized intervals: each replicate's standard error.
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
     pub replicate_standard_errors: Option<Vec<f64>>,
+    /// With `replicates` and `"exact"` or `"bayesian"`: each replicate's probability weight.
     #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
     pub replicate_probabilities: Option<Vec<f64>>,
+    /// Replays this response: send it with the same data instead of the parameters.
+    #[schema(pattern = "^bs1\\.")]
     pub token: String,
+    /// Milliseconds from receiving the request to the response.
+    #[schema(minimum = 0)]
     pub elapsed_ms: f64,
 }
 

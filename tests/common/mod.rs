@@ -1,9 +1,19 @@
 //! Shared helpers for black-box tests: spawn the real application on port 0 and talk HTTP.
+//!
+//! Every response read through [`TestApp`] is checked against the OpenAPI document
+//! (`bandsaw::api::openapi`): its status must be documented for the operation, its content type
+//! must be one the document lists, and a JSON body must validate against the documented schema.
+//! A path that is not in the document must be a `NotFound` problem, and a method a documented
+//! path does not list a `MethodNotAllowed` problem. A failure panics with the JSON Pointer into
+//! the body and what is wrong there.
 #![allow(dead_code)]
+
+use std::collections::BTreeMap;
+use std::sync::OnceLock;
 
 use bandsaw::config::Config;
 use bandsaw::server::Application;
-use serde_json::Value;
+use serde_json::{json, Value};
 
 /// A running server for one test.
 pub struct TestApp {
@@ -42,7 +52,7 @@ impl TestApp {
             .send()
             .await
             .expect("request");
-        Self::read(resp).await
+        Self::read_checked(resp, Some("post")).await
     }
 
     /// POST raw bytes with a content type.
@@ -55,15 +65,24 @@ impl TestApp {
             .send()
             .await
             .expect("request");
-        Self::read(resp).await
+        Self::read_checked(resp, Some("post")).await
     }
 
     pub async fn get(&self, path: &str) -> (u16, String, Value) {
         let resp = self.client.get(format!("{}{path}", self.base)).send().await.expect("request");
-        Self::read(resp).await
+        Self::read_checked(resp, Some("get")).await
     }
 
+    /// Read a response: (status, content-type, body as JSON, `Null` when it is not JSON). The
+    /// response is checked against the OpenAPI document as that of the only operation of its
+    /// path (the request's method is not known here).
     pub async fn read(resp: reqwest::Response) -> (u16, String, Value) {
+        Self::read_checked(resp, None).await
+    }
+
+    async fn read_checked(resp: reqwest::Response, method: Option<&str>) -> (u16, String, Value) {
+        let path = resp.url().path().to_string();
+        let encoded = resp.headers().contains_key("content-encoding");
         let status = resp.status().as_u16();
         let ct = resp
             .headers()
@@ -72,8 +91,228 @@ impl TestApp {
             .unwrap_or("")
             .to_string();
         let bytes = resp.bytes().await.expect("body");
+        if !encoded {
+            check_response(method, &path, status, &ct, &bytes);
+        }
         let v = serde_json::from_slice(&bytes).unwrap_or(Value::Null);
         (status, ct, v)
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// Responses checked against the OpenAPI document
+// ---------------------------------------------------------------------------------------------
+
+/// One documented response: its name for messages and, per media type (its essence, without
+/// parameters), a validator of the body when the type is JSON.
+pub struct Documented {
+    pub name: String,
+    pub content: Vec<(String, Option<jsonschema::Validator>)>,
+}
+
+/// The document's responses, built once per test binary.
+pub struct Contract {
+    /// path → method (lowercase) → status key ("200", "default", …) → response.
+    pub operations: BTreeMap<String, BTreeMap<String, BTreeMap<String, Documented>>>,
+    pub not_found: Documented,
+    pub method_not_allowed: Documented,
+}
+
+const METHODS: [&str; 8] = ["get", "put", "post", "delete", "options", "head", "patch", "trace"];
+
+/// The media type without parameters, lowercased.
+pub fn essence(content_type: &str) -> String {
+    content_type.split(';').next().unwrap_or("").trim().to_ascii_lowercase()
+}
+
+pub fn is_json(essence: &str) -> bool {
+    essence == "application/json" || (essence.starts_with("application/") && essence.ends_with("+json"))
+}
+
+/// A validator of `schema`, a schema object of the document whose `$ref`s point into
+/// `#/components/schemas`: OpenAPI 3.1 schemas are JSON Schema 2020-12, so the schema is made
+/// the root of a resource that carries the document's components beside it.
+pub fn schema_validator(document: &Value, schema: &Value) -> jsonschema::Validator {
+    let mut root = match schema {
+        Value::Object(o) => o.clone(),
+        Value::Bool(b) => {
+            return jsonschema::options()
+                .with_draft(jsonschema::Draft::Draft202012)
+                .build(&json!(b))
+                .expect("bool schema")
+        }
+        other => panic!("a schema is an object: {other}"),
+    };
+    root.insert("components".into(), document["components"].clone());
+    jsonschema::options()
+        .with_draft(jsonschema::Draft::Draft202012)
+        .build(&Value::Object(root))
+        .unwrap_or_else(|e| panic!("the document's schema does not compile: {e}\n{schema:#}"))
+}
+
+/// Follow a response `$ref` (`#/components/responses/X`).
+fn resolve<'a>(document: &'a Value, response: &'a Value) -> (&'a Value, Option<String>) {
+    match response.get("$ref").and_then(Value::as_str) {
+        Some(r) => {
+            let pointer = r.strip_prefix('#').unwrap_or_else(|| panic!("a local $ref: {r}"));
+            let target = document.pointer(pointer).unwrap_or_else(|| panic!("{r} is not in the document"));
+            (target, r.rsplit('/').next().map(String::from))
+        }
+        None => (response, None),
+    }
+}
+
+fn documented(document: &Value, name: String, response: &Value) -> Documented {
+    let (response, component) = resolve(document, response);
+    let name = match component {
+        Some(c) => format!("{name} ({c})"),
+        None => name,
+    };
+    let content = response
+        .get("content")
+        .and_then(Value::as_object)
+        .map(|c| {
+            c.iter()
+                .map(|(media_type, media)| {
+                    let e = essence(media_type);
+                    let validator = is_json(&e).then(|| schema_validator(document, media.get("schema").unwrap_or(&json!(true))));
+                    (e, validator)
+                })
+                .collect()
+        })
+        .unwrap_or_default();
+    Documented { name, content }
+}
+
+/// The document as JSON.
+pub fn document() -> &'static Value {
+    static DOCUMENT: OnceLock<Value> = OnceLock::new();
+    DOCUMENT.get_or_init(|| serde_json::from_str(&bandsaw::api::openapi::document_json()).expect("the document is JSON"))
+}
+
+pub fn contract() -> &'static Contract {
+    static CONTRACT: OnceLock<Contract> = OnceLock::new();
+    CONTRACT.get_or_init(|| {
+        let doc = document();
+        let mut operations = BTreeMap::new();
+        for (path, item) in doc["paths"].as_object().expect("paths") {
+            let mut methods = BTreeMap::new();
+            for method in METHODS {
+                let Some(op) = item.get(method) else { continue };
+                let mut responses = BTreeMap::new();
+                for (status, response) in op["responses"].as_object().expect("responses") {
+                    let name = format!("{} {path} {status}", method.to_uppercase());
+                    responses.insert(status.clone(), documented(doc, name, response));
+                }
+                methods.insert(method.to_string(), responses);
+            }
+            operations.insert(path.clone(), methods);
+        }
+        let general = |name: &str| {
+            documented(
+                doc,
+                format!("any route's {name}"),
+                &json!({"$ref": format!("#/components/responses/{name}")}),
+            )
+        };
+        Contract {
+            operations,
+            not_found: general("NotFound"),
+            method_not_allowed: general("MethodNotAllowed"),
+        }
+    })
+}
+
+/// Check one response against the document; panics with what does not match. `method` is
+/// lowercase, or `None` when unknown (then the path's only operation is assumed).
+pub fn check_response(method: Option<&str>, path: &str, status: u16, content_type: &str, body: &[u8]) {
+    let contract = contract();
+    let path = path.split('?').next().unwrap_or(path);
+    let shown = method.map_or("?".to_string(), str::to_uppercase);
+    let expected: &Documented = match contract.operations.get(path) {
+        None => {
+            assert_eq!(
+                status, 404,
+                "{shown} {path} answered {status}, but the path is not in the OpenAPI document (src/api/openapi.rs): document it, or it must be a 404"
+            );
+            &contract.not_found
+        }
+        Some(methods) => {
+            let op = match method {
+                Some(m) => methods.get(m),
+                None if status == 405 => None,
+                None if methods.len() == 1 => methods.values().next(),
+                None => return,
+            };
+            match op {
+                None => {
+                    assert_eq!(
+                        status,
+                        405,
+                        "{shown} {path} answered {status}, but the OpenAPI document lists only {:?} for this path: document the method, or it must be a 405",
+                        methods.keys().collect::<Vec<_>>()
+                    );
+                    &contract.method_not_allowed
+                }
+                Some(responses) => responses
+                    .get(&status.to_string())
+                    .or_else(|| responses.get("default"))
+                    .unwrap_or_else(|| {
+                        panic!(
+                            "{shown} {path} answered {status}, which the OpenAPI document does not list for it (it lists {:?}); body: {}",
+                            responses.keys().collect::<Vec<_>>(),
+                            String::from_utf8_lossy(&body[..body.len().min(2000)])
+                        )
+                    }),
+            }
+        }
+    };
+    check_body(expected, content_type, body);
+}
+
+/// Check a body against a documented response.
+pub fn check_body(expected: &Documented, content_type: &str, body: &[u8]) {
+    if expected.content.is_empty() {
+        return;
+    }
+    let e = essence(content_type);
+    let Some((_, validator)) = expected.content.iter().find(|(m, _)| *m == e) else {
+        panic!(
+            "{}: the content type is {content_type:?}, but the OpenAPI document lists {:?}",
+            expected.name,
+            expected.content.iter().map(|(m, _)| m).collect::<Vec<_>>()
+        );
+    };
+    let Some(validator) = validator else { return };
+    let value: Value = serde_json::from_slice(body).unwrap_or_else(|err| {
+        panic!(
+            "{}: the body is not JSON ({err}): {}",
+            expected.name,
+            String::from_utf8_lossy(&body[..body.len().min(2000)])
+        )
+    });
+    let errors: Vec<String> = validator
+        .iter_errors(&value)
+        .map(|err| {
+            let at = err.instance_path().to_string();
+            format!("  at {:?}: {err} (schema {})", at, err.schema_path())
+        })
+        .collect();
+    if !errors.is_empty() {
+        let mut shown = value.to_string();
+        if shown.len() > 4000 {
+            let mut end = 4000;
+            while !shown.is_char_boundary(end) {
+                end -= 1;
+            }
+            shown.truncate(end);
+            shown.push('…');
+        }
+        panic!(
+            "{}: the body does not match the OpenAPI document:\n{}\nbody: {shown}",
+            expected.name,
+            errors.join("\n")
+        );
     }
 }
 
