@@ -357,3 +357,19 @@ fn reported_monte_carlo_errors_match_the_spread_across_seeds() {
         sd(&ses)
     );
 }
+
+#[test]
+fn the_largest_accepted_magnitudes_give_finite_answers() {
+    // Found by schemathesis: values near the accepted bound once overflowed the cubes in the
+    // BCa acceleration. 1e75 is the API's bound (request::MAX_MAGNITUDE).
+    let x = vec![0.99999, 0.0, 8.4e74, -5.6e16, -2.2e74, -5.4e16, -6.2e74, 1e75, -1e75, 3.3e74];
+    for stat in [
+        StatisticSpec::Mean,
+        StatisticSpec::Variance { ddof: 1 },
+        StatisticSpec::StdDev { ddof: 0 },
+        StatisticSpec::Median,
+    ] {
+        let o = run(&job(Sample::Column(x.clone()), stat.clone(), 500)).unwrap();
+        assert_all_finite(&o, &format!("{stat:?}"));
+    }
+}

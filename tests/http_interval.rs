@@ -705,7 +705,7 @@ async fn a_wrong_method_on_a_known_route_is_a_405_problem() {
 async fn huge_finite_values_give_a_result_or_a_422_never_a_500() {
     let app = TestApp::spawn().await;
     let (s, ct, v) = post(&app, json!({"data": [1e308, -1e308, 1e308], "seed": 1})).await;
-    // bandsaw refuses magnitudes above 1e150 (sums of squares would overflow), naming each.
+    // bandsaw refuses magnitudes above 1e75 (variances of such data would overflow), naming each.
     assert_eq!(s, 422, "{v}");
     assert_eq!(ct, "application/problem+json");
     assert_eq!(common::pointers(&v), vec!["/data/0", "/data/1", "/data/2"]);

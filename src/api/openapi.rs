@@ -588,7 +588,7 @@ macro_rules! hand_schema {
     };
 }
 
-/// One data value: a finite JSON number of magnitude at most 1e150.
+/// One data value: a finite JSON number of magnitude at most 1e75.
 pub struct DataValue;
 hand_schema!(DataValue, &[], {
     ObjectBuilder::new()
@@ -596,7 +596,7 @@ hand_schema!(DataValue, &[], {
         .minimum(Some(-super::request::MAX_MAGNITUDE))
         .maximum(Some(super::request::MAX_MAGNITUDE))
         .description(Some(
-            "A finite JSON number of magnitude at most 1e150 (so that sums of squares stay finite). `NaN`, `Infinity` and numeric strings are refused at their index.",
+            "A finite JSON number of magnitude at most 1e75 (so that the variance of such data, and the spread of its replicates, stay finite). `NaN`, `Infinity` and numeric strings are refused at their index.",
         ))
         .into()
 });

@@ -10,7 +10,7 @@ use utoipa::ToSchema;
 #[schema(example = json!({"pointer": "/levels/0", "message": "must be a confidence level strictly between 0 and 1 (0.95, not 95); got 95"}))]
 pub struct FieldError {
     /// A JSON Pointer into the request ("" for the whole body).
-    #[schema(pattern = "^(/.*)?$")]
+    #[schema(pattern = "^(/[\\s\\S]*)?$")]
     pub pointer: String,
     /// What is wrong and how to fix it.
     pub message: String,

@@ -15,8 +15,9 @@ use crate::engine::run::{Include, OnTimeLimit, Resamples, DEFAULT_INNER_RESAMPLE
 use crate::engine::scheme::SchemeSpec;
 use crate::engine::statistic::StatisticSpec;
 
-/// The largest magnitude accepted in data: squares and sums of a million squares stay finite.
-pub const MAX_MAGNITUDE: f64 = 1e150;
+/// The largest magnitude accepted in data. A variance of such data is at most about 1e150, so
+/// the squared deviations of its replicates, summed over a million of them, stay finite.
+pub const MAX_MAGNITUDE: f64 = 1e75;
 
 /// The largest seed every JSON client carries exactly: 2^53 − 1.
 pub const MAX_SEED: u64 = (1 << 53) - 1;

@@ -30,12 +30,19 @@ pub fn z0(dist: &ReplicateDistribution, estimate: f64) -> (f64, bool) {
 /// Acceleration from jackknife values θ₍ᵢ₎ with multiplicities cᵢ (Efron & Tibshirani 1993,
 /// eq. 14.15): a = Σcᵢdᵢ³ / (6 (Σcᵢdᵢ²)^{3/2}), dᵢ = θ₍·₎ − θ₍ᵢ₎. Zero when the jackknife values
 /// do not vary.
+///
+/// a does not change when every dᵢ is scaled, so the dᵢ are divided by the largest |dᵢ| first:
+/// cubes of large influences would otherwise overflow.
 pub fn acceleration(values: &[f64], multiplicity: &[f64]) -> f64 {
     let total: f64 = multiplicity.iter().sum();
     let mean = values.iter().zip(multiplicity).map(|(v, c)| v * c).sum::<f64>() / total;
+    let scale = values.iter().map(|v| (mean - v).abs()).fold(0.0, f64::max);
+    if scale == 0.0 || !scale.is_finite() {
+        return 0.0;
+    }
     let (mut s2, mut s3) = (0.0, 0.0);
     for (v, c) in values.iter().zip(multiplicity) {
-        let d = mean - v;
+        let d = (mean - v) / scale;
         s2 += c * d * d;
         s3 += c * d * d * d;
     }
@@ -123,5 +130,15 @@ mod tests {
     fn acceleration_of_symmetric_jackknife_is_zero() {
         assert_eq!(acceleration(&[1.0, 2.0, 3.0], &[1.0, 1.0, 1.0]), 0.0);
         assert_eq!(acceleration(&[2.0, 2.0], &[1.0, 1.0]), 0.0);
+    }
+
+    #[test]
+    fn acceleration_is_scale_free_and_does_not_overflow() {
+        let v = [1.0, 2.0, 7.0, 3.0];
+        let c = [1.0, 2.0, 1.0, 1.0];
+        let a = acceleration(&v, &c);
+        assert!(a != 0.0);
+        let big: Vec<f64> = v.iter().map(|x| x * 1e140).collect();
+        assert!((acceleration(&big, &c) - a).abs() < 1e-12 * a.abs());
     }
 }

@@ -215,7 +215,7 @@ impl ReplicateDistribution {
         if self.sd == 0.0 || self.sorted.len() < 3 {
             return 0.0;
         }
-        let (m2, m3) = self.central_moments23();
+        let (m2, m3, _) = self.standardized_moments();
         if m2 == 0.0 {
             0.0
         } else {
@@ -223,46 +223,39 @@ impl ReplicateDistribution {
         }
     }
 
-    /// Excess-free kurtosis m₄/m₂² of the replicates (3 for a normal distribution).
+    /// Kurtosis m₄/m₂² of the replicates (3 for a normal distribution; not the excess).
     pub fn kurtosis(&self) -> f64 {
-        let n = self.sorted.len() as f64;
-        let (mut m2, mut m4) = (0.0, 0.0);
-        for v in &self.sorted {
-            let d2 = (v - self.mean) * (v - self.mean);
-            m2 += d2;
-            m4 += d2 * d2;
-        }
+        let (m2, _, m4) = self.standardized_moments();
         if m2 == 0.0 {
             3.0
         } else {
-            (m4 / n) / ((m2 / n) * (m2 / n))
+            m4 / (m2 * m2)
         }
     }
 
-    fn central_moments23(&self) -> (f64, f64) {
-        match &self.cumulative {
-            None => {
-                let n = self.sorted.len() as f64;
-                let (mut m2, mut m3) = (0.0, 0.0);
-                for v in &self.sorted {
-                    let d = v - self.mean;
-                    m2 += d * d;
-                    m3 += d * d * d;
-                }
-                (m2 / n, m3 / n)
-            }
-            Some(cum) => {
-                let (mut m2, mut m3, mut prev) = (0.0, 0.0, 0.0);
-                for (v, c) in self.sorted.iter().zip(cum) {
-                    let p = c - prev;
-                    prev = *c;
-                    let d = v - self.mean;
-                    m2 += p * d * d;
-                    m3 += p * d * d * d;
-                }
-                (m2, m3)
-            }
+    /// Central moments 2 to 4 of (replicate − mean)/sd. Standardising first keeps the powers
+    /// finite whatever the scale of the statistic; skewness and kurtosis do not depend on it.
+    fn standardized_moments(&self) -> (f64, f64, f64) {
+        if self.sd == 0.0 || !self.sd.is_finite() {
+            return (0.0, 0.0, 0.0);
         }
+        let (mut m2, mut m3, mut m4, mut prev) = (0.0, 0.0, 0.0, 0.0);
+        let n = self.sorted.len() as f64;
+        for (i, v) in self.sorted.iter().enumerate() {
+            let p = match &self.cumulative {
+                None => 1.0 / n,
+                Some(cum) => {
+                    let p = cum[i] - prev;
+                    prev = cum[i];
+                    p
+                }
+            };
+            let z = (v - self.mean) / self.sd;
+            m2 += p * z * z;
+            m3 += p * z * z * z;
+            m4 += p * z * z * z * z;
+        }
+        (m2, m3, m4)
     }
 }
 
