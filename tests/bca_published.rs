@@ -60,15 +60,6 @@ fn spatial_test_data_variance_matches_the_book_and_numpy() {
         let tol = 4.0 * (sd_at(sd2000, b).powi(2) + sd2000 * sd2000).sqrt() + 0.05;
         assert!((got - want).abs() < tol, "{name}: {got} vs book {want} ± {tol}");
     }
-    // The engine's own Monte Carlo errors should be of the measured size (within a factor 1.5
-    // either way: the order-statistic estimate is itself rough).
-    for (got, sd2000) in [
-        (bca.lower_mc_error, 2.0),
-        (bca.upper_mc_error, 4.0),
-        (pct.lower_mc_error, 1.8),
-        (pct.upper_mc_error, 2.0),
-    ] {
-        let want = sd_at(sd2000, b);
-        assert!(got > want / 1.5 && got < want * 1.5, "mc error {got} vs measured {want}");
-    }
+    // The calibration of the reported Monte Carlo errors (BCa included) is tested across seeds
+    // in tests/engine_properties.rs.
 }
