@@ -373,3 +373,20 @@ fn the_largest_accepted_magnitudes_give_finite_answers() {
         assert_all_finite(&o, &format!("{stat:?}"));
     }
 }
+
+#[test]
+fn aggregated_data_with_huge_counts_stays_in_o_of_distinct_values() {
+    // A latency histogram of a hundred billion requests: every path (iid draws, the jackknife,
+    // the nested bootstrap of studentized) must work on the 4 distinct values, never on the
+    // expanded rows, or this test would run out of memory.
+    let sample = Sample::Aggregated {
+        values: vec![5.0, 12.0, 40.0, 250.0],
+        counts: vec![60_000_000_000, 30_000_000_000, 9_000_000_000, 1_000_000_000],
+    };
+    let mut j = job(sample, StatisticSpec::Median, 300);
+    j.include = Include::default();
+    let o = run(&j).unwrap();
+    assert_eq!(o.n, 100_000_000_000);
+    assert_eq!(o.estimate, 5.0);
+    assert_all_finite(&o, "huge counts");
+}

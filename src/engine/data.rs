@@ -75,22 +75,6 @@ impl Sample {
         }
         h.finalize().into()
     }
-
-    /// The observations of a one-column sample in the order given (aggregated data expanded in
-    /// value order); `None` for named columns.
-    pub fn column_in_order(&self) -> Option<Vec<f64>> {
-        match self {
-            Sample::Column(x) => Some(x.clone()),
-            Sample::Aggregated { values, counts } => {
-                let mut out = Vec::new();
-                for (v, &c) in values.iter().zip(counts) {
-                    out.extend(std::iter::repeat_n(*v, c as usize));
-                }
-                Some(out)
-            }
-            Sample::Columns { .. } => None,
-        }
-    }
 }
 
 /// One column laid out for resampling: units sorted by value, each with its base weight.

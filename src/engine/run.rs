@@ -264,7 +264,10 @@ impl Context<'_> {
         }
         let total: f64 = wk.w.iter().sum();
         let size = self.data.total().round() as u64;
-        let integer = wk.w.iter().all(|x| x.fract() == 0.0);
+        // Drawing from the expanded resample costs O(n) per inner resample; for aggregated data
+        // with large counts the multinomial over units (O(units)) is both cheaper and bounded in
+        // memory, so expand only when n is small next to the number of units.
+        let integer = size <= 8 * wk.w.len() as u64 && wk.w.iter().all(|x| x.fract() == 0.0);
         if integer {
             wk.expanded.clear();
             for (j, c) in wk.w.iter().enumerate() {
@@ -614,7 +617,6 @@ fn summarize(
         }
     }
 
-    let one_column = job.sample.column_in_order();
     let constant_data = match &job.sample {
         Sample::Column(x) => x.iter().all(|v| *v == x[0]),
         Sample::Aggregated { values, counts } => values
@@ -628,7 +630,7 @@ fn summarize(
         Sample::Columns { columns, .. } => columns.iter().all(|c| c.iter().all(|v| *v == c[0])),
     };
     let lag1 = match (&job.sample, job.scheme) {
-        (Sample::Column(_), SchemeSpec::Iid) => one_column.as_deref().and_then(diagnostics::lag1_autocorrelation),
+        (Sample::Column(x), SchemeSpec::Iid) => diagnostics::lag1_autocorrelation(x),
         _ => None,
     };
     let warnings = diagnostics::assess(&Facts {
