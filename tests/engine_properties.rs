@@ -390,3 +390,76 @@ fn aggregated_data_with_huge_counts_stays_in_o_of_distinct_values() {
     assert_eq!(o.estimate, 5.0);
     assert_all_finite(&o, "huge counts");
 }
+
+#[test]
+fn a_deadline_is_noticed_inside_a_long_first_wave_and_inside_the_jackknife() {
+    use std::time::{Duration, Instant};
+    // One replicate here is a 1000-deep nested bootstrap of 20 000 rows (about 2e7 row-draws):
+    // the deadline must still be noticed within a few inner resamples.
+    let x: Vec<f64> = (0..20_000).map(|i| ((i * 7919) % 10007) as f64).collect();
+    let mut j = job(Sample::Column(x.clone()), StatisticSpec::Median, 256);
+    j.methods = vec![Method::Studentized];
+    j.inner_resamples = 1000;
+    j.include = Include::default();
+    let started = Instant::now();
+    j.deadline = Some(started + Duration::from_millis(100));
+    assert!(matches!(run(&j), Err(bandsaw::engine::run::RunError::TimeLimit { .. })));
+    assert!(
+        started.elapsed() < Duration::from_millis(1500),
+        "a hang guard: {:?}",
+        started.elapsed()
+    );
+    // The generic jackknife of the MAD over 300 000 rows (500 groups × 300 000) stops too.
+    let big: Vec<f64> = (0..300_000).map(|i| ((i * 7919) % 100_003) as f64).collect();
+    let mut j = job(Sample::Column(big), StatisticSpec::Mad { normal_scale: false }, 1000);
+    j.methods = vec![Method::Bca];
+    j.include = Include::default();
+    let started = Instant::now();
+    j.deadline = Some(started + Duration::from_millis(50));
+    assert!(matches!(run(&j), Err(bandsaw::engine::run::RunError::TimeLimit { .. })));
+    assert!(
+        started.elapsed() < Duration::from_millis(1500),
+        "a hang guard: {:?}",
+        started.elapsed()
+    );
+}
+
+#[test]
+fn studentized_intervals_ignore_standard_errors_that_are_zero_up_to_rounding() {
+    // A resample of three copies of 0.1 has a standard error of exactly 0 in exact arithmetic but
+    // about 1e-17 in floating point; t* would be 1e15 if it were used.
+    for x in [vec![0.1, 0.1, 0.7], vec![0.1, 0.2, 0.3, 0.7, 0.1, 0.2]] {
+        let o = run(&job(Sample::Column(x.clone()), StatisticSpec::Mean, 2000)).unwrap();
+        let st = o.intervals.iter().find(|iv| iv.method == Method::Studentized).unwrap();
+        assert!(st.endpoints.lower > -10.0 && st.endpoints.upper < 10.0, "{x:?}: {:?}", st.endpoints);
+        assert!(o.diagnostics.warnings.iter().any(|w| w.code == "studentized_degenerate"));
+    }
+}
+
+#[test]
+fn correlation_of_huge_values_equals_that_of_the_same_values_scaled_down() {
+    let x: Vec<f64> = (0..500).map(|i| (i as f64 * 0.37).sin() + i as f64 / 500.0).collect();
+    let y: Vec<f64> = x.iter().enumerate().map(|(i, v)| v + ((i * 31) % 7) as f64 / 20.0).collect();
+    let stat = StatisticSpec::Correlation {
+        x: "x".into(),
+        y: "y".into(),
+        spearman: false,
+    };
+    let small = Sample::Columns {
+        names: vec!["x".into(), "y".into()],
+        columns: vec![x.clone(), y.clone()],
+    };
+    let huge = Sample::Columns {
+        names: vec!["x".into(), "y".into()],
+        columns: vec![x.iter().map(|v| v * 9e74).collect(), y.iter().map(|v| v * 9e74).collect()],
+    };
+    let a = run(&job(small, stat.clone(), 500)).unwrap();
+    let b = run(&job(huge, stat, 500)).unwrap();
+    assert!(
+        (a.estimate - b.estimate).abs() < 1e-12 && a.estimate > 0.5,
+        "{} vs {}",
+        a.estimate,
+        b.estimate
+    );
+    assert!((a.standard_error - b.standard_error).abs() < 1e-9 * a.standard_error);
+}

@@ -726,3 +726,61 @@ async fn target_mc_error_without_auto_resamples_is_refused() {
         &["/target_mc_error"],
     );
 }
+
+/// A token is base64 of JSON, so an edited one must meet the same limits as a request.
+#[tokio::test]
+async fn an_edited_token_is_held_to_the_request_limits() {
+    use base64::engine::general_purpose::URL_SAFE_NO_PAD;
+    use base64::Engine as _;
+    let app = TestApp::spawn().await;
+    let data = json!([3.0, 1.5, 4.25, 1.0, 5.5, 9.0, 2.75]);
+    let (s, _, first) = post(&app, json!({"data": data, "seed": 9})).await;
+    assert_eq!(s, 200);
+    let token = first["token"].as_str().unwrap();
+    let mut body: Value = serde_json::from_slice(&URL_SAFE_NO_PAD.decode(token.trim_start_matches("bs1.")).unwrap()).unwrap();
+    let reencode = |b: &Value| format!("bs1.{}", URL_SAFE_NO_PAD.encode(serde_json::to_vec(b).unwrap()));
+    // 300 levels (a request may ask for 20 at most).
+    body["levels"] = json!((1..=300).map(|i| i as f64 / 301.0).collect::<Vec<_>>());
+    invalid(post(&app, json!({"data": data, "token": reencode(&body)})).await, &["/token"]);
+    // One resample (a request needs at least 2).
+    body["levels"] = json!([0.95]);
+    body["resamples"] = json!(1);
+    invalid(post(&app, json!({"data": data, "token": reencode(&body)})).await, &["/token"]);
+    // Put back as it was, it replays.
+    body["resamples"] = json!(2000);
+    let (s, _, again) = post(&app, json!({"data": data, "token": reencode(&body)})).await;
+    assert_eq!(s, 200);
+    assert_eq!(without_timing(again), without_timing(first));
+}
+
+/// Values with a zero count take no part in a resample, so they do not count towards the
+/// number of distinct resamples of "exact" (C(19, 10) = 92 378 for 10 observations).
+#[tokio::test]
+async fn exact_counts_only_values_that_were_observed() {
+    let app = TestApp::spawn().await;
+    let values: Vec<f64> = (0..20).map(|i| i as f64).collect();
+    let counts: Vec<u64> = (0..20).map(|i| if i % 2 == 0 { 1 } else { 0 }).collect();
+    let (s, _, v) = post(
+        &app,
+        json!({"data": {"values": values, "counts": counts}, "resamples": "exact", "methods": ["percentile"]}),
+    )
+    .await;
+    assert_eq!(s, 200, "{v}");
+    assert_eq!(v["resamples"], 92378);
+}
+
+/// The columns of a table are a JSON object, whose key order means nothing: a token issued for
+/// one order replays on the other.
+#[tokio::test]
+async fn a_token_replays_whatever_the_order_of_the_columns() {
+    let app = TestApp::spawn().await;
+    let x = json!([1.0, 2.0, 3.5, 4.0, 6.0, 7.5]);
+    let y = json!([2.0, 2.5, 3.0, 5.0, 5.5, 9.0]);
+    let stat = json!({"name": "slope", "x": "x", "y": "y"});
+    let (s, _, first) = post(&app, json!({"data": {"columns": {"x": x, "y": y}}, "statistic": stat, "seed": 4})).await;
+    assert_eq!(s, 200);
+    let swapped = serde_json::from_str::<Value>(&format!(r#"{{"columns": {{"y": {y}, "x": {x}}}}}"#)).unwrap();
+    let (s, _, again) = post(&app, json!({"data": swapped, "token": first["token"]})).await;
+    assert_eq!(s, 200, "{again}");
+    assert_eq!(without_timing(again), without_timing(first));
+}

@@ -67,9 +67,10 @@ def acceleration(jack):
 def z0_of(reps, theta):
     reps = np.asarray(reps, dtype=float)
     B = reps.size
-    # Ties within 1e-12 relative to max(|theta|, sd) count as equal (bandsaw's TIE_TOLERANCE):
+    # Ties within 1e-12 relative to max(|theta|, sd), at most 1e-6 sd, count as equal (bandsaw's TIE_TOLERANCE):
     # resamples that reproduce the estimate mathematically may differ from it in the last bits.
-    tol = 1e-12 * max(abs(theta), float(np.std(reps, ddof=1)) if B > 1 else 0.0)
+    sd = float(np.std(reps, ddof=1)) if B > 1 else 0.0
+    tol = min(1e-12 * max(abs(theta), sd), 1e-6 * sd)
     share = (np.count_nonzero(reps < theta - tol) + 0.5 * np.count_nonzero(np.abs(reps - theta) <= tol)) / B
     return float(norm.ppf(share))
 

@@ -111,6 +111,7 @@ pub const WARNING_CODES: &[&str] = &[
     "partial_result",
     "auto_resample_limit",
     "auto_time_limit",
+    "inexact_nested_studentized",
 ];
 
 pub fn catalog(limits: LimitsEntry) -> CatalogResponse {

@@ -13,6 +13,7 @@ use super::request::{self, Errors, IntervalParams, Limits, MAX_SEED};
 use super::response::{find_null, IntervalResponse};
 use crate::engine::data::Sample;
 use crate::engine::interval::Method;
+use crate::engine::jackknife;
 use crate::engine::montecarlo::AUTO_START;
 use crate::engine::run::{self, Include, Job, Resamples, RunError, Stop};
 use crate::engine::scheme::exact;
@@ -82,51 +83,39 @@ fn include_names(inc: Include) -> Vec<String> {
     v
 }
 
-/// Rebuild the parameters recorded in a token.
+/// Rebuild the parameters recorded in a token. They go through the same validation as a
+/// request's (a token is only base64 of JSON, so an edited one must not get past the limits).
 fn params_from_token(body: &TokenBody, limits: &Limits) -> Result<(IntervalParams, Option<Stop>), Problem> {
-    let mut errs = Errors::default();
-    let statistic = request::parse_statistic(Some(&body.statistic), "/token", &mut errs);
-    let scheme = request::parse_scheme(Some(&body.scheme), "/token", &mut errs);
-    let methods: Option<Vec<Method>> = body.methods.iter().map(|m| Method::from_name(m)).collect();
-    let stop = Stop::from_name(&body.stop);
-    let levels_ok = !body.levels.is_empty() && body.levels.iter().all(|l| *l > 0.0 && *l < 1.0);
-    let mut include = Include::default();
-    for i in &body.include {
-        match i.as_str() {
-            "histogram" => include.histogram = true,
-            "cdf" => include.cdf = true,
-            "replicates" => include.replicates = true,
-            _ => errs.push("/token", "unknown inclusion"),
-        }
-    }
-    let resamples = match body.mode.as_str() {
-        "exact" => Some(Resamples::Exact),
-        "fixed" | "auto" if body.resamples >= 1 && body.resamples <= limits.max_resamples => Some(Resamples::Fixed(body.resamples)),
-        _ => None,
-    };
-    match (statistic, scheme, methods, stop, resamples) {
-        (Some(statistic), Some(scheme), Some(methods), Some(stop), Some(resamples))
-            if levels_ok && errs.is_empty() && !methods.is_empty() =>
-        {
-            Ok((
-                IntervalParams {
-                    statistic,
-                    resamples,
-                    seed: Some(body.seed),
-                    levels: body.levels.clone(),
-                    methods,
-                    scheme,
-                    include,
-                    inner_resamples: body.inner_resamples.clamp(10, 1000),
-                },
-                if body.mode == "exact" { None } else { Some(stop) },
-            ))
-        }
-        _ => Err(Problem::invalid(vec![FieldError::new(
+    let damaged = || {
+        Problem::invalid(vec![FieldError::new(
             "/token",
             "this token is damaged or outside this server's limits; send the parameters instead",
-        )])),
-    }
+        )])
+    };
+    let resamples = match body.mode.as_str() {
+        "exact" => Value::from("exact"),
+        "fixed" | "auto" => Value::from(body.resamples),
+        _ => return Err(damaged()),
+    };
+    let fields = serde_json::json!({
+        "statistic": body.statistic,
+        "scheme": body.scheme,
+        "resamples": resamples,
+        "seed": body.seed,
+        "levels": body.levels,
+        "methods": body.methods,
+        "include": body.include,
+        "inner_resamples": body.inner_resamples,
+    });
+    let Value::Object(obj) = fields else {
+        unreachable!("built as an object")
+    };
+    let mut errs = Errors::default();
+    let params = request::parse_params(&obj, limits, &mut errs)
+        .filter(|_| errs.is_empty())
+        .ok_or_else(damaged)?;
+    let stop = Stop::from_name(&body.stop).ok_or_else(damaged)?;
+    Ok((params, if body.mode == "exact" { None } else { Some(stop) }))
 }
 
 /// A validated interval job with its estimated work, ready to run.
@@ -193,7 +182,7 @@ pub fn prepare(json: &Value, settings: &Settings, started: Instant, deadline_cap
     let nested = params.methods.contains(&Method::Studentized) && !params.statistic.has_analytic_se();
     let per_resample = units * params.statistic.relative_cost() * if nested { 1.0 + params.inner_resamples as f64 } else { 1.0 };
     let mut max_resamples = settings.limits.max_resamples;
-    let work;
+    let mut work;
     match params.resamples {
         Resamples::Fixed(b) => {
             work = per_resample * b as f64;
@@ -202,7 +191,7 @@ pub fn prepare(json: &Value, settings: &Settings, started: Instant, deadline_cap
             }
         }
         Resamples::Exact => {
-            let count = exact::count(req.sample.n(), req.sample.units());
+            let count = exact::count(req.sample.n(), req.sample.units_with_weight());
             match count {
                 Some(c) if c <= settings.limits.max_resamples => {
                     work = per_resample * c as f64;
@@ -232,6 +221,21 @@ pub fn prepare(json: &Value, settings: &Settings, started: Instant, deadline_cap
         }
     }
 
+    // The limit that applies: the job's own, or what is left of its batch's.
+    let effective_ms = deadline_cap.map_or(req.time_limit_ms, |cap| {
+        req.time_limit_ms.min(cap.saturating_duration_since(started).as_millis() as u64)
+    });
+
+    // BCa's jackknife runs once per job, before the resamples.
+    if params.methods.contains(&Method::Bca) {
+        let raw = !matches!(req.sample, Sample::Aggregated { .. });
+        let units = req.sample.units_with_weight();
+        work += params.statistic.relative_cost() * jackknife::cost_in_units(params.statistic.has_closed_jackknife(), units, raw);
+        if work > settings.work_limit {
+            return Err(Problem::work_limit(work, settings.work_limit));
+        }
+    }
+
     let job = Job {
         sample: req.sample.clone(),
         statistic: params.statistic.clone(),
@@ -257,7 +261,7 @@ pub fn prepare(json: &Value, settings: &Settings, started: Instant, deadline_cap
         params,
         mode,
         target,
-        time_limit_ms: req.time_limit_ms,
+        time_limit_ms: effective_ms,
         work,
     })
 }

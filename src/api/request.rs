@@ -668,9 +668,16 @@ pub fn parse_params(obj: &Map<String, Value>, limits: &Limits, errs: &mut Errors
         None => Some(vec![0.95]),
         Some(Value::Array(items)) if !items.is_empty() && items.len() <= 20 => {
             let mut out = Vec::new();
+            let mut valid = 0;
             for (i, l) in items.iter().enumerate() {
                 match l.as_f64() {
-                    Some(x) if x > 0.0 && x < 1.0 => out.push(x),
+                    Some(x) if x > 0.0 && x < 1.0 => {
+                        valid += 1;
+                        // A repeated level adds nothing; keep the first.
+                        if !out.contains(&x) {
+                            out.push(x)
+                        }
+                    }
                     _ => errs.push(
                         format!("/levels/{i}"),
                         format!(
@@ -680,7 +687,7 @@ pub fn parse_params(obj: &Map<String, Value>, limits: &Limits, errs: &mut Errors
                     ),
                 }
             }
-            (out.len() == items.len()).then_some(out)
+            (valid == items.len()).then_some(out)
         }
         Some(v) => {
             errs.push(

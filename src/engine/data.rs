@@ -40,6 +40,14 @@ impl Sample {
         }
     }
 
+    /// The number of units with a positive count (what a resample spreads weight over).
+    pub fn units_with_weight(&self) -> usize {
+        match self {
+            Sample::Aggregated { counts, .. } => counts.iter().filter(|c| **c > 0).count(),
+            _ => self.units(),
+        }
+    }
+
     /// SHA-256 over a canonical encoding of the sample (form tag, lengths, names and the IEEE
     /// bits of every value), so a token can tell whether it is replayed on the same data.
     pub fn digest(&self) -> [u8; 32] {
@@ -63,7 +71,10 @@ impl Sample {
             Sample::Columns { names, columns } => {
                 h.update(b"columns");
                 h.update((names.len() as u64).to_le_bytes());
-                for (name, col) in names.iter().zip(columns) {
+                // Columns by name: a JSON object's key order carries no meaning.
+                let mut by_name: Vec<(&String, &Vec<f64>)> = names.iter().zip(columns).collect();
+                by_name.sort_by(|a, b| a.0.cmp(b.0));
+                for (name, col) in by_name {
                     h.update((name.len() as u64).to_le_bytes());
                     h.update(name.as_bytes());
                     h.update((col.len() as u64).to_le_bytes());

@@ -131,7 +131,7 @@ pub fn assess(f: &Facts) -> Vec<Warning> {
         if f.bca_no_acceleration {
             w.push(Warning::new(
                 "bca_without_acceleration",
-                "fewer than 3 observations: the jackknife acceleration cannot be computed and BCa used a = 0 (a bias-corrected percentile interval).",
+                "the jackknife acceleration could not be computed (fewer than 3 observations, or more than 20 000 distinct values of aggregated data for a statistic without a closed-form jackknife), so BCa used a = 0: a bias-corrected percentile interval.",
             ));
         }
     }

@@ -2,23 +2,37 @@
 //!
 //! Quenouille, M. H. (1956), "Notes on bias in estimation", Biometrika 43; Efron & Tibshirani
 //! (1993), ch. 11. Three paths, fastest first:
-//! - a closed form in O(n) where the statistic has one (mean, variance, quantiles, ratio,
-//!   correlation, slope …);
-//! - leaving out one observation of each unit in turn (O(units) evaluations), for up to
-//!   [`GENERIC_LIMIT`] units;
-//! - beyond that, a delete-a-group jackknife over [`GROUPS`] interleaved groups of units,
-//!   which estimates the same acceleration (sums of cubes and squares of the per-observation
-//!   influences add up over groups) at a fraction of the cost.
+//! - a closed form in O(n) or O(n log n) where the statistic has one (mean, variance,
+//!   quantiles, trimmed mean, ratio, correlation, slope …);
+//! - leaving out one observation of each unit in turn (O(units) evaluations): up to
+//!   [`GENERIC_LIMIT`] raw rows, or [`AGGREGATED_LIMIT`] distinct values of aggregated data;
+//! - beyond that, for raw rows, a delete-a-group jackknife over [`GROUPS`] groups of equal
+//!   size drawn by a fixed random permutation of the rows. With random groups the sums of
+//!   cubes and squares of the per-group influences estimate those of the per-row influences,
+//!   so the acceleration is estimated without bias at a fraction of the cost (a fixed
+//!   permutation keeps it reproducible). Aggregated data beyond its limit has no jackknife:
+//!   BCa then uses a = 0 and says so.
+//!
+//! The generic paths look at `stop` between evaluations and give up with [`Stopped`].
 
+use std::sync::atomic::{AtomicBool, Ordering};
+
+use rand::seq::SliceRandom;
+use rand::SeedableRng;
+use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
 use crate::engine::data::Prepared;
 use crate::engine::statistic::{Scratch, Statistic};
 
-/// Units up to which the generic jackknife leaves out each unit in turn.
+/// Raw rows up to which the generic jackknife leaves out each row in turn.
 pub const GENERIC_LIMIT: usize = 2000;
-/// Groups of the delete-a-group jackknife beyond [`GENERIC_LIMIT`].
+/// Distinct values of aggregated data up to which each is left out in turn.
+pub const AGGREGATED_LIMIT: usize = 20_000;
+/// Groups of the delete-a-group jackknife beyond [`GENERIC_LIMIT`] raw rows.
 pub const GROUPS: usize = 500;
+/// Seed of the fixed permutation that forms the groups.
+const GROUP_SEED: u64 = 0x6a61_636b_6b6e_6966;
 
 /// How the jackknife values were obtained.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -46,26 +60,60 @@ pub struct Jackknife {
     pub kind: JackknifeKind,
 }
 
-/// The jackknife of `stat` on `data`; `None` with fewer than 3 observations.
-pub fn jackknife(stat: &dyn Statistic, data: &Prepared) -> Option<Jackknife> {
+/// The jackknife was stopped (deadline or cancellation).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Stopped;
+
+/// The evaluations the jackknife of this statistic on `units` units of `raw` rows (or
+/// aggregated values) costs, in units of one statistic evaluation's work per unit; for the
+/// work estimate made before a job starts.
+pub fn cost_in_units(closed_form: bool, units: usize, raw: bool) -> f64 {
+    let u = units as f64;
+    if closed_form {
+        u
+    } else if raw && units > GENERIC_LIMIT {
+        GROUPS as f64 * u
+    } else if !raw && units > AGGREGATED_LIMIT {
+        0.0
+    } else {
+        u * u
+    }
+}
+
+/// The jackknife of `stat` on `data`; `Ok(None)` with fewer than 3 observations, or for
+/// aggregated data beyond [`AGGREGATED_LIMIT`] without a closed form.
+pub fn jackknife(stat: &dyn Statistic, data: &Prepared, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
     if data.total() < 3.0 {
-        return None;
+        return Ok(None);
     }
     let base = data.base_weights();
     if let Some(values) = stat.jackknife_closed(data) {
-        return Some(Jackknife {
+        return Ok(Some(Jackknife {
             values,
             multiplicity: base,
             kind: JackknifeKind::ClosedForm,
-        });
+        }));
     }
     let units = data.units();
-    if units <= GENERIC_LIMIT {
+    let raw = data.raw_rows();
+    let stopped = AtomicBool::new(false);
+    let check = || {
+        if stopped.load(Ordering::Relaxed) || stop() {
+            stopped.store(true, Ordering::Relaxed);
+            true
+        } else {
+            false
+        }
+    };
+    if (raw && units <= GENERIC_LIMIT) || (!raw && units <= AGGREGATED_LIMIT) {
         let values: Vec<f64> = (0..units)
             .into_par_iter()
             .map_init(
                 || (base.clone(), Scratch::with_units(units)),
                 |(w, scratch), j| {
+                    if check() {
+                        return f64::NAN;
+                    }
                     w[j] -= 1.0;
                     let v = stat.evaluate(data, w, scratch);
                     w[j] += 1.0;
@@ -73,31 +121,109 @@ pub fn jackknife(stat: &dyn Statistic, data: &Prepared) -> Option<Jackknife> {
                 },
             )
             .collect();
-        return Some(Jackknife {
+        if stopped.load(Ordering::Relaxed) {
+            return Err(Stopped);
+        }
+        return Ok(Some(Jackknife {
             values,
             multiplicity: base,
             kind: JackknifeKind::LeaveOneOut,
-        });
+        }));
     }
-    let values: Vec<f64> = (0..GROUPS)
-        .into_par_iter()
+    if !raw {
+        return Ok(None);
+    }
+    // Rows dealt into GROUPS groups of (almost) equal size by a fixed permutation.
+    let mut order: Vec<usize> = (0..units).collect();
+    order.shuffle(&mut ChaCha8Rng::seed_from_u64(GROUP_SEED));
+    let mut group_of = vec![0u32; units];
+    for (k, row) in order.iter().enumerate() {
+        group_of[*row] = (k % GROUPS) as u32;
+    }
+    let members: Vec<Vec<usize>> = {
+        let mut m = vec![Vec::with_capacity(units / GROUPS + 1); GROUPS];
+        for (row, g) in group_of.iter().enumerate() {
+            m[*g as usize].push(row);
+        }
+        m
+    };
+    let values: Vec<f64> = members
+        .par_iter()
         .map_init(
             || (base.clone(), Scratch::with_units(units)),
-            |(w, scratch), g| {
-                for j in (g..units).step_by(GROUPS) {
-                    w[j] = 0.0;
+            |(w, scratch), rows| {
+                if check() {
+                    return f64::NAN;
+                }
+                for r in rows {
+                    w[*r] = 0.0;
                 }
                 let v = stat.evaluate(data, w, scratch);
-                for j in (g..units).step_by(GROUPS) {
-                    w[j] = base[j];
+                for r in rows {
+                    w[*r] = base[*r];
                 }
                 v
             },
         )
         .collect();
-    Some(Jackknife {
+    if stopped.load(Ordering::Relaxed) {
+        return Err(Stopped);
+    }
+    // Each group counts once: with random groups Σ_g (Σ_{i∈g} Uᵢ)ᵏ estimates Σᵢ Uᵢᵏ for k = 2, 3
+    // (the cross terms vanish in expectation), and the acceleration is a ratio of those sums.
+    Ok(Some(Jackknife {
         values,
         multiplicity: vec![1.0; GROUPS],
         kind: JackknifeKind::Grouped { groups: GROUPS },
-    })
+    }))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::engine::data::Sample;
+    use crate::engine::interval::bca::acceleration;
+    use crate::engine::statistic::location::Mean;
+    use rand_distr::{Distribution, StandardNormal};
+
+    /// The mean without its closed form, to send it down the generic paths.
+    struct OpaqueMean;
+    impl Statistic for OpaqueMean {
+        fn evaluate(&self, data: &Prepared, w: &[f64], s: &mut Scratch) -> f64 {
+            Mean.evaluate(data, w, s)
+        }
+    }
+
+    #[test]
+    fn grouped_acceleration_agrees_with_the_exact_one() {
+        // Skewed data (lognormal, σ = 1.5), 50 000 rows: the grouped jackknife's acceleration
+        // must match the closed form's. For such data numpy 2.4 measured, over 200 random
+        // groupings into 500 groups, a mean of 0.01113 against the exact 0.01128 (no bias) and an
+        // sd of 0.0020; our grouping is one fixed draw, so the tolerance is 4 sds, 0.008.
+        // (Groups taken in sorted order, as an earlier version did, were biased threefold.)
+        let mut rng = ChaCha8Rng::seed_from_u64(7);
+        let x: Vec<f64> = (0..50_000)
+            .map(|_| {
+                let z: f64 = StandardNormal.sample(&mut rng);
+                (1.5 * z).exp()
+            })
+            .collect();
+        let data = Prepared::from_sample(&Sample::Column(x));
+        let never = || false;
+        let exact = jackknife(&Mean, &data, &never).unwrap().unwrap();
+        assert_eq!(exact.kind, JackknifeKind::ClosedForm);
+        let grouped = jackknife(&OpaqueMean, &data, &never).unwrap().unwrap();
+        assert_eq!(grouped.kind, JackknifeKind::Grouped { groups: GROUPS });
+        let a_exact = acceleration(&exact.values, &exact.multiplicity);
+        let a_grouped = acceleration(&grouped.values, &grouped.multiplicity);
+        assert!((a_exact - a_grouped).abs() < 0.008, "exact {a_exact} grouped {a_grouped}");
+        assert!(a_exact > 0.0 && a_grouped > 0.0);
+    }
+
+    #[test]
+    fn a_stop_request_ends_the_generic_jackknife() {
+        let x: Vec<f64> = (0..1500).map(|i| i as f64).collect();
+        let data = Prepared::from_sample(&Sample::Column(x));
+        assert_eq!(jackknife(&OpaqueMean, &data, &|| true).unwrap_err(), Stopped);
+    }
 }

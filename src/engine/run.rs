@@ -26,8 +26,6 @@ use crate::engine::statistic::{self, DataLocation, DataProblem, Scratch, Statist
 
 /// How long a wave of replicates should take.
 pub const WAVE_TARGET: Duration = Duration::from_millis(25);
-/// Replicates per parallel task inside a wave.
-const CHUNK: usize = 64;
 /// Default inner resamples of the nested bootstrap for studentized intervals (Davison &
 /// Hinkley 1997 §5.2.1 suggest 25–50 are enough for a standard error; common practice).
 pub const DEFAULT_INNER_RESAMPLES: usize = 50;
@@ -242,25 +240,27 @@ impl Worker {
 }
 
 impl Context<'_> {
-    /// Replicate `i`: its value and, for studentized intervals, its standard error.
-    fn replicate(&self, i: u64, wk: &mut Worker) -> (f64, f64) {
+    /// Replicate `i`: its value and, for studentized intervals, its standard error; `None`
+    /// when `stop` said to stop during its nested bootstrap.
+    fn replicate(&self, i: u64, wk: &mut Worker, stop: &dyn Fn() -> bool) -> Option<(f64, f64)> {
         let mut rng = replicate_stream(self.seed, i);
         scheme::draw(self.scheme, self.data, &mut rng, &mut wk.w);
         let v = self.stat.evaluate(self.data, &wk.w, &mut wk.scratch);
         let se = if self.studentized {
-            self.replicate_se(&mut rng, wk)
+            self.replicate_se(&mut rng, wk, stop)?
         } else {
             f64::NAN
         };
-        (v, se)
+        Some((v, se))
     }
 
     /// The standard error of the statistic on the resample in `wk.w`: analytic where the
     /// statistic has one, else the standard deviation of `inner` resamples drawn from the
-    /// resample (continuing replicate i's own stream, so it stays reproducible).
-    fn replicate_se(&self, rng: &mut rand_chacha::ChaCha8Rng, wk: &mut Worker) -> f64 {
+    /// resample (continuing replicate i's own stream, so it stays reproducible). `None` when
+    /// `stop` said to stop.
+    fn replicate_se(&self, rng: &mut rand_chacha::ChaCha8Rng, wk: &mut Worker, stop: &dyn Fn() -> bool) -> Option<f64> {
         if let Some(se) = self.stat.analytic_se(self.data, &wk.w) {
-            return se;
+            return Some(se);
         }
         let total: f64 = wk.w.iter().sum();
         let size = self.data.total().round() as u64;
@@ -277,7 +277,11 @@ impl Context<'_> {
             }
         }
         wk.inner_values.clear();
-        for _ in 0..self.inner {
+        for k in 0..self.inner {
+            // A nested bootstrap can be long: look at the deadline every few inner resamples.
+            if k % 8 == 7 && stop() {
+                return None;
+            }
             wk.w_inner.clear();
             wk.w_inner.resize(wk.w.len(), 0.0);
             if integer {
@@ -296,10 +300,19 @@ impl Context<'_> {
         }
         let k = wk.inner_values.len() as f64;
         if k < 2.0 {
-            return f64::NAN;
+            return Some(f64::NAN);
         }
         let m = wk.inner_values.iter().sum::<f64>() / k;
-        (wk.inner_values.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / (k - 1.0)).sqrt()
+        Some((wk.inner_values.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / (k - 1.0)).sqrt())
+    }
+}
+
+/// The resamples a job asks for, for time-limit messages.
+fn requested_resamples(job: &Job) -> u64 {
+    match job.resamples {
+        Resamples::Fixed(b) => b,
+        Resamples::Auto { .. } => montecarlo::AUTO_START,
+        Resamples::Exact => exact::count(job.sample.n(), job.sample.units()).unwrap_or(0),
     }
 }
 
@@ -311,41 +324,69 @@ fn cancelled(job: &Job) -> bool {
     job.cancel.as_ref().is_some_and(|c| c.load(Ordering::Relaxed))
 }
 
-/// Extend `values`/`ses` with replicates up to index `goal`, in waves. Returns false when it
-/// stopped early (deadline); the vectors then hold a prefix.
+/// Extend `values`/`ses` with replicates up to index `goal`, in waves. Every replicate looks
+/// at the deadline and cancel flag before it starts (and a nested bootstrap every few inner
+/// resamples), so a stop is noticed within one replicate however large the wave. On a stop the
+/// vectors keep the longest run of finished replicates from the start, and `false` is returned.
 fn generate(ctx: &Context, job: &Job, goal: u64, values: &mut Vec<f64>, ses: &mut Vec<f64>) -> Result<bool, RunError> {
     let units = ctx.data.units();
-    let mut wave = 256u64;
+    let threads = rayon::current_num_threads().max(1);
+    // Start with a couple of replicates per thread, then grow towards WAVE_TARGET.
+    let mut wave = 2 * threads as u64;
+    let stopped = AtomicBool::new(false);
+    let should_stop = || {
+        if stopped.load(Ordering::Relaxed) {
+            return true;
+        }
+        let stop = expired(job) || cancelled(job);
+        if stop {
+            stopped.store(true, Ordering::Relaxed);
+        }
+        stop
+    };
     while (values.len() as u64) < goal {
-        if cancelled(job) {
-            return Err(RunError::Cancelled);
+        if should_stop() {
+            break;
         }
-        if expired(job) {
-            return Ok(false);
-        }
-        let start = values.len() as u64;
-        let end = (start + wave).min(goal);
-        let len = (end - start) as usize;
-        values.resize(values.len() + len, 0.0);
-        ses.resize(ses.len() + len, 0.0);
+        let start = values.len();
+        let len = ((start as u64 + wave).min(goal) - start as u64) as usize;
+        values.resize(start + len, 0.0);
+        ses.resize(start + len, 0.0);
+        let mut done = vec![false; len];
         let began = Instant::now();
-        let (vs, ss) = (&mut values[start as usize..], &mut ses[start as usize..]);
-        vs.par_chunks_mut(CHUNK).zip(ss.par_chunks_mut(CHUNK)).enumerate().for_each_init(
-            || Worker::new(units),
-            |wk, (c, (vc, sc))| {
-                let first = start + (c * CHUNK) as u64;
-                for k in 0..vc.len() {
-                    let (v, se) = ctx.replicate(first + k as u64, wk);
-                    vc[k] = v;
-                    sc[k] = se;
-                }
-            },
-        );
+        let min_len = (len / (4 * threads)).max(1);
+        values[start..]
+            .par_iter_mut()
+            .zip(ses[start..].par_iter_mut())
+            .zip(done.par_iter_mut())
+            .enumerate()
+            .with_min_len(min_len)
+            .for_each_init(
+                || Worker::new(units),
+                |wk, (k, ((v, se), d))| {
+                    if should_stop() {
+                        return;
+                    }
+                    if let Some((a, b)) = ctx.replicate((start + k) as u64, wk, &should_stop) {
+                        *v = a;
+                        *se = b;
+                        *d = true;
+                    }
+                },
+            );
+        if let Some(first_missing) = done.iter().position(|d| !d) {
+            values.truncate(start + first_missing);
+            ses.truncate(start + first_missing);
+            break;
+        }
         let took = began.elapsed().as_secs_f64().max(1e-6);
         let scale = (WAVE_TARGET.as_secs_f64() / took).clamp(0.25, 4.0);
-        wave = ((len as f64 * scale) as u64).clamp(64, 1 << 20);
+        wave = ((len as f64 * scale) as u64).clamp(threads as u64, 1 << 20);
     }
-    Ok(true)
+    if cancelled(job) {
+        return Err(RunError::Cancelled);
+    }
+    Ok(values.len() as u64 >= goal)
 }
 
 /// Run an interval job on the current rayon pool.
@@ -370,7 +411,16 @@ pub fn run(job: &Job) -> Result<Outcome, RunError> {
         inner: job.inner_resamples,
     };
     let jack = if job.methods.contains(&Method::Bca) {
-        jackknife::jackknife(stat.as_ref(), &data)
+        match jackknife::jackknife(stat.as_ref(), &data, &|| expired(job) || cancelled(job)) {
+            Ok(j) => j,
+            Err(jackknife::Stopped) if cancelled(job) => return Err(RunError::Cancelled),
+            Err(jackknife::Stopped) => {
+                return Err(RunError::TimeLimit {
+                    done: 0,
+                    requested: requested_resamples(job),
+                })
+            }
+        }
     } else {
         None
     };
@@ -401,13 +451,21 @@ pub fn run(job: &Job) -> Result<Outcome, RunError> {
                 }
                 wk.w.clear();
                 wk.w.extend_from_slice(w);
-                values.push(stat.evaluate(&data, &wk.w, &mut wk.scratch));
-                ses.push(if studentized {
+                let value = stat.evaluate(&data, &wk.w, &mut wk.scratch);
+                let se = if studentized {
                     let mut rng = replicate_stream(job.seed, index);
-                    ctx.replicate_se(&mut rng, &mut wk)
+                    match ctx.replicate_se(&mut rng, &mut wk, &|| expired(job) || cancelled(job)) {
+                        Some(se) => se,
+                        None => {
+                            timed_out = true;
+                            return false;
+                        }
+                    }
                 } else {
                     f64::NAN
-                });
+                };
+                values.push(value);
+                ses.push(se);
                 p.push(prob);
                 index += 1;
                 true
@@ -556,12 +614,17 @@ fn summarize(
 
     // Studentized: t* over replicates with a positive, finite se*.
     let mut studentized_dropped = 0;
+    let se_hat = ctx.stat.analytic_se(ctx.data, &ctx.data.base_weights()).unwrap_or(standard_error);
+    // A resample whose values are all equal has a standard error of 0, which rounding can turn
+    // into 1e-17; such a se* would blow t* up to 1e15. Anything below this share of the
+    // sample's standard error counts as zero.
+    let tiny_se = 1e-9 * se_hat.max(standard_error);
     let t_dist = if ctx.studentized {
         let mut t = Vec::with_capacity(keep.len());
         let mut tp = Vec::new();
         for (k, &i) in keep.iter().enumerate() {
             let se = ses[i];
-            if se.is_finite() && se > 0.0 {
+            if se.is_finite() && se > tiny_se {
                 t.push((values[i] - estimate) / se);
                 if let Some(p) = &kept_probs {
                     tp.push(p[k]);
@@ -580,7 +643,6 @@ fn summarize(
     } else {
         None
     };
-    let se_hat = ctx.stat.analytic_se(ctx.data, &ctx.data.base_weights()).unwrap_or(standard_error);
 
     let mut intervals = Vec::new();
     let mut bca_levels = Vec::new();
@@ -589,7 +651,7 @@ fn summarize(
             let endpoints = match method {
                 Method::Percentile => interval::percentile::interval(&dist, level),
                 Method::Basic => interval::basic::interval(&dist, estimate, level),
-                Method::Normal => interval::normal::interval(estimate, bias, standard_error, bias_mc, se_mc, level),
+                Method::Normal => interval::normal::interval(estimate, bias, standard_error, bias_mc, se_mc, &dist, level),
                 Method::Bca => {
                     let e = bca::interval(&dist, &bca_constants, level);
                     if let Some((lo, hi)) = e.quantile_levels {
@@ -633,7 +695,7 @@ fn summarize(
         (Sample::Column(x), SchemeSpec::Iid) => diagnostics::lag1_autocorrelation(x),
         _ => None,
     };
-    let warnings = diagnostics::assess(&Facts {
+    let mut warnings = diagnostics::assess(&Facts {
         n: ctx.data.total(),
         dist: &dist,
         estimate,
@@ -651,6 +713,12 @@ fn summarize(
         studentized_dropped,
     });
 
+    if kept_probs.is_some() && ctx.studentized && !ctx.stat.has_analytic_se() {
+        warnings.push(Warning::new(
+            "inexact_nested_studentized",
+            "with \"exact\" the resamples are enumerated, but the studentized interval of this statistic needs a nested bootstrap of each, which is still random: its endpoints carry Monte Carlo error that is not included in lower_mc_error and upper_mc_error (shown as 0). Every other number is exact.",
+        ));
+    }
     let histogram = job.include.histogram.then(|| histogram(&dist));
     let cdf = job.include.cdf.then(|| cdf(&dist));
     let replicates = job.include.replicates.then(|| kept_values.clone());

@@ -175,12 +175,15 @@ impl ReplicateDistribution {
     /// P(replicate < x) + ½·P(replicate = x): the share below x with ties split, as BCa's z0
     /// needs (Efron & Tibshirani 1993, eq. 14.14, with the usual tie correction).
     ///
-    /// Replicates within [`TIE_TOLERANCE`] (relative to max(|x|, sd)) of x count as ties: a
+    /// Replicates within [`TIE_TOLERANCE`] (relative to max(|x|, sd), and at most 1e-6 sd) of x
+    /// count as ties: a
     /// resample that reproduces the estimate mathematically (a permutation of the sample, or
     /// a different multiset with the same variance) may differ from it in the last bits
     /// because its sums ran in another order, and such rounding must not move z0.
     pub fn share_below(&self, x: f64) -> f64 {
-        let tol = TIE_TOLERANCE * x.abs().max(self.sd);
+        // Capped at a millionth of the spread, so that data with a large offset and a small
+        // spread never count genuine replicates as ties.
+        let tol = (TIE_TOLERANCE * x.abs().max(self.sd)).min(1e-6 * self.sd);
         let below = self.sorted.partition_point(|v| *v < x - tol);
         let upto = self.sorted.partition_point(|v| *v <= x + tol);
         match &self.cumulative {

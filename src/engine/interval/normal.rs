@@ -4,20 +4,29 @@
 //! Davison & Hinkley (1997), §5.2, eq. 5.5; Efron & Tibshirani (1993), §13.2 ("standard"
 //! interval, here with the bootstrap bias removed as Davison & Hinkley do).
 
-use super::{normal_dist, Endpoints};
+use super::{normal_dist, Endpoints, ReplicateDistribution};
 
 /// `bias_mc` and `se_mc` are the Monte Carlo standard errors of the bias and of the standard
-/// error; they combine into the endpoint's (treating the two as uncorrelated, which holds
-/// exactly for symmetric replicate distributions).
-pub fn interval(estimate: f64, bias: f64, se: f64, bias_mc: f64, se_mc: f64, level: f64) -> Endpoints {
+/// error. The endpoint θ̂ − b ∓ z·se has Monte Carlo variance var(b) + z²·var(se) ± 2z·cov(b, se),
+/// where for B replicates cov(mean, sd) ≈ μ₃/(2σB) = γσ²/(2B), γ the skewness of the replicates
+/// (delta method on cov(x̄, s²) = μ₃/B); so skewed replicates make one endpoint noisier than the
+/// other. Exact enumeration has no Monte Carlo error.
+pub fn interval(estimate: f64, bias: f64, se: f64, bias_mc: f64, se_mc: f64, dist: &ReplicateDistribution, level: f64) -> Endpoints {
     let z = normal_dist::quantile(1.0 - (1.0 - level) / 2.0);
     let centre = estimate - bias;
-    let mc = (bias_mc * bias_mc + z * z * se_mc * se_mc).sqrt();
+    let (lower_mc_error, upper_mc_error) = if dist.is_exact() {
+        (0.0, 0.0)
+    } else {
+        let cov = dist.skewness() * se * se / (2.0 * dist.len() as f64);
+        let base = bias_mc * bias_mc + z * z * se_mc * se_mc;
+        // lower = centre − z·se: cov(−b, −z·se) = +z·cov; upper: −z·cov.
+        ((base + 2.0 * z * cov).max(0.0).sqrt(), (base - 2.0 * z * cov).max(0.0).sqrt())
+    };
     Endpoints {
         lower: centre - z * se,
         upper: centre + z * se,
-        lower_mc_error: mc,
-        upper_mc_error: mc,
+        lower_mc_error,
+        upper_mc_error,
         quantile_levels: None,
     }
 }

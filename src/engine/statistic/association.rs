@@ -151,14 +151,14 @@ impl Statistic for Pearson {
     fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
         let t = table(data);
         let (_, _, _, sxx, syy, sxy) = weighted_moments2(&t.columns[self.x], &t.columns[self.y], w);
-        sxy / (sxx * syy).sqrt()
+        sxy / (sxx.sqrt() * syy.sqrt())
     }
     fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
         let t = table(data);
         Some(
             jackknife_sums(&t.columns[self.x], &t.columns[self.y])
                 .into_iter()
-                .map(|(_, sxx, syy, sxy)| sxy / (sxx * syy).sqrt())
+                .map(|(_, sxx, syy, sxy)| sxy / (sxx.sqrt() * syy.sqrt()))
                 .collect(),
         )
     }
@@ -263,7 +263,7 @@ impl Statistic for Spearman {
         let (_, _, _, sxx, syy, sxy) = weighted_moments2(&a, &b, w);
         scratch.a = a;
         scratch.b = b;
-        sxy / (sxx * syy).sqrt()
+        sxy / (sxx.sqrt() * syy.sqrt())
     }
 }
 

@@ -153,6 +153,46 @@ impl Statistic for TrimmedMean {
         }
         acc / kept
     }
+
+    /// Leave-one-out trimmed means in O(n log n). Deleting one copy of unit j (whose copies end
+    /// at cumulative count C_j) maps order position t of the reduced sample to t when
+    /// t < C_j − 1 and to t + 1 otherwise (see `quantile::jackknife_quantiles`), so the kept
+    /// positions [g′, n − 1 − g′) of the reduced sample are original positions
+    /// [g′, min(C_j − 1, n − 1 − g′)) ∪ [max(g′, C_j − 1) + 1, n − g′), summed with prefix sums
+    /// of the order statistics.
+    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
+        let c = one(data);
+        let n1 = c.total - 1.0;
+        let g = (self.trim * n1).floor();
+        let (lo, hi) = (g, n1 - g);
+        let mut cum = Vec::with_capacity(c.x.len());
+        let mut pre = Vec::with_capacity(c.x.len());
+        let (mut cc, mut ss) = (0.0, 0.0);
+        for (x, b) in c.x.iter().zip(&c.base) {
+            cc += b;
+            ss += b * x;
+            cum.push(cc);
+            pre.push(ss);
+        }
+        // Sum of the first p order statistics (p a whole number in 0..=n).
+        let prefix = |p: f64| -> f64 {
+            if p <= 0.0 {
+                return 0.0;
+            }
+            let k = cum.partition_point(|cj| *cj < p);
+            let (before_c, before_s) = if k == 0 { (0.0, 0.0) } else { (cum[k - 1], pre[k - 1]) };
+            before_s + (p - before_c) * c.x[k]
+        };
+        let span = |a: f64, b: f64| if b > a { prefix(b) - prefix(a) } else { 0.0 };
+        Some(
+            cum.iter()
+                .map(|cj| {
+                    let r = cj - 1.0;
+                    (span(lo, r.min(hi)) + span(r.max(lo) + 1.0, hi + 1.0)) / (hi - lo)
+                })
+                .collect(),
+        )
+    }
 }
 
 #[cfg(test)]
@@ -174,6 +214,30 @@ mod tests {
         let d = prep(&[1., 2., 3., 4., 100.]);
         let w = d.base_weights();
         assert_eq!(TrimmedMean { trim: 0.2 }.evaluate(&d, &w, &mut Scratch::default()), 3.0);
+    }
+
+    #[test]
+    fn closed_jackknife_of_trimmed_mean_matches_direct() {
+        let samples = [
+            Prepared::from_sample(&Sample::Aggregated {
+                values: vec![1., 2., 3., 7., 9., 12.],
+                counts: vec![1, 3, 1, 2, 4, 2],
+            }),
+            prep(&[5.0, 1.0, 9.0, 2.0, 2.0, 8.0, 3.0, 7.0, 4.0, 6.0, 10.0]),
+        ];
+        for d in &samples {
+            let Prepared::One(c) = d else { unreachable!() };
+            for trim in [0.0, 0.1, 0.2, 0.25, 0.4] {
+                let t = TrimmedMean { trim };
+                let jack = t.jackknife_closed(d).unwrap();
+                for j in 0..c.x.len() {
+                    let mut w = c.base.clone();
+                    w[j] -= 1.0;
+                    let direct = t.evaluate(d, &w, &mut Scratch::default());
+                    assert!((jack[j] - direct).abs() < 1e-12, "trim {trim} unit {j}: {} vs {direct}", jack[j]);
+                }
+            }
+        }
     }
 
     #[test]

@@ -121,6 +121,12 @@ impl StatisticSpec {
         )
     }
 
+    /// True when the statistic has a closed-form jackknife (see `Statistic::jackknife_closed`);
+    /// used to estimate the work of BCa before a job starts.
+    pub fn has_closed_jackknife(&self) -> bool {
+        !matches!(self, StatisticSpec::Mad { .. } | StatisticSpec::Correlation { spearman: true, .. })
+    }
+
     /// True when shifting every value by c shifts the statistic by c (location statistics).
     pub fn shift_equivariant(&self) -> bool {
         matches!(
@@ -350,5 +356,62 @@ pub(crate) fn resolve_columns<'t>(spec: &StatisticSpec, table: &'t RowTable) -> 
         Ok(cols)
     } else {
         Err(problems)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The spec's promises agree with what the built statistics do.
+    #[test]
+    fn spec_flags_match_the_built_statistics() {
+        let one = Sample::Column(vec![1.0, 2.0, 4.0, 8.0, 9.0]);
+        let cols = Sample::Columns {
+            names: vec!["x".into(), "y".into()],
+            columns: vec![vec![1.0, 2.0, 4.0, 8.0, 9.0], vec![2.0, 1.0, 5.0, 7.0, 9.5]],
+        };
+        let specs = [
+            StatisticSpec::Mean,
+            StatisticSpec::Median,
+            StatisticSpec::Quantile { p: 0.3 },
+            StatisticSpec::TrimmedMean { trim: 0.2 },
+            StatisticSpec::Variance { ddof: 1 },
+            StatisticSpec::StdDev { ddof: 0 },
+            StatisticSpec::Mad { normal_scale: true },
+            StatisticSpec::Iqr,
+            StatisticSpec::GeometricMean,
+            StatisticSpec::CoefficientOfVariation,
+            StatisticSpec::Ratio {
+                numerator: "y".into(),
+                denominator: "x".into(),
+            },
+            StatisticSpec::Correlation {
+                x: "x".into(),
+                y: "y".into(),
+                spearman: false,
+            },
+            StatisticSpec::Correlation {
+                x: "x".into(),
+                y: "y".into(),
+                spearman: true,
+            },
+            StatisticSpec::Slope {
+                x: "x".into(),
+                y: "y".into(),
+            },
+        ];
+        for spec in specs {
+            let sample = if spec.needs_columns() { &cols } else { &one };
+            let data = Prepared::from_sample(sample);
+            let stat = build(&spec, sample, &data).unwrap();
+            assert_eq!(stat.has_analytic_se(), spec.has_analytic_se(), "{spec:?}");
+            assert_eq!(
+                stat.analytic_se(&data, &data.base_weights()).is_some(),
+                spec.has_analytic_se(),
+                "{spec:?}"
+            );
+            assert_eq!(stat.jackknife_closed(&data).is_some(), spec.has_closed_jackknife(), "{spec:?}");
+        }
     }
 }

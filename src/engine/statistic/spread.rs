@@ -69,19 +69,22 @@ impl Statistic for Variance {
         let c = one(data);
         let total: f64 = w.iter().sum();
         let m = weighted_mean(&c.x, w);
-        let (mut m2, mut m4) = (0.0, 0.0);
-        for (x, wi) in c.x.iter().zip(w) {
-            let d2 = (x - m) * (x - m);
-            m2 += wi * d2;
-            m4 += wi * d2 * d2;
+        let m2 = weighted_plugin_variance(&c.x, w);
+        if m2 == 0.0 {
+            return Some(0.0);
         }
-        m2 /= total;
-        m4 /= total;
+        // Fourth moment in units of m₂ (the kurtosis), so no power of a large deviation is formed.
+        let mut kurt = 0.0;
+        for (x, wi) in c.x.iter().zip(w) {
+            let r = (x - m) * (x - m) / m2;
+            kurt += wi * r * r;
+        }
+        kurt /= total;
         let k = total / (total - self.ddof);
-        let se_var = k * ((m4 - m2 * m2).max(0.0) / total).sqrt();
+        let se_var = k * m2 * ((kurt - 1.0).max(0.0) / total).sqrt();
         if self.root {
-            let sd = (k * m2).sqrt();
-            Some(se_var / (2.0 * sd))
+            // se(sd) = se(var)/(2 sd), written so that no product of large numbers is formed.
+            Some(k.sqrt() * m2.sqrt() * ((kurt - 1.0).max(0.0) / total).sqrt() / 2.0)
         } else {
             Some(se_var)
         }
