@@ -643,7 +643,7 @@ async fn responses_of_every_shape_match_the_document() {
         // Constant data (degenerate intervals, warnings).
         json!({"data": [5, 5, 5, 5], "methods": all, "seed": 9}),
         // A partial result.
-        json!({"data": large, "statistic": "median", "resamples": 1_000_000, "time_limit_ms": 30, "on_time_limit": "partial", "seed": 10}),
+        json!({"data": large, "statistic": "median", "resamples": 1_000_000, "time_limit_ms": 300, "on_time_limit": "partial", "seed": 10}),
     ];
     for body in &bodies {
         let (s, _, v) = app.post("/v1/interval", body).await;
@@ -660,7 +660,7 @@ async fn responses_of_every_shape_match_the_document() {
     let (s, _, _) = app
         .post(
             "/v1/interval",
-            &json!({"data": large, "statistic": "median", "resamples": 1_000_000, "time_limit_ms": 30}),
+            &json!({"data": large, "statistic": "median", "resamples": 1_000_000, "time_limit_ms": 300}),
         )
         .await;
     assert_eq!(s, 503);
@@ -671,7 +671,7 @@ async fn responses_of_every_shape_match_the_document() {
         {"kind": "interval", "data": [1, 2, 3, 5], "token": first["token"]},
         {"kind": "interval", "data": [1, "x"]},
         {"kind": "compare", "baseline": [1, 2], "candidate": [2, 3]},
-        {"kind": "interval", "data": large, "statistic": "median", "resamples": 1_000_000, "time_limit_ms": 30},
+        {"kind": "interval", "data": large, "statistic": "median", "resamples": 1_000_000, "time_limit_ms": 300},
         7
     ], "adjust": "holm", "family_level": 0.9, "time_limit_ms": 5000});
     let (s, _, v) = app.post("/v1/batch", &jobs).await;

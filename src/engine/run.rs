@@ -220,6 +220,7 @@ struct Context<'a> {
 
 /// Per-worker buffers: nothing is allocated per replicate.
 struct Worker {
+    tick: u32,
     w: Vec<f64>,
     w_inner: Vec<f64>,
     expanded: Vec<u32>,
@@ -230,6 +231,7 @@ struct Worker {
 impl Worker {
     fn new(units: usize) -> Self {
         Worker {
+            tick: 0,
             w: Vec::with_capacity(units),
             w_inner: Vec::with_capacity(units),
             expanded: Vec::new(),
@@ -364,7 +366,11 @@ fn generate(ctx: &Context, job: &Job, goal: u64, values: &mut Vec<f64>, ses: &mu
             .for_each_init(
                 || Worker::new(units),
                 |wk, (k, ((v, se), d))| {
-                    if should_stop() {
+                    // The clock is read before every 16th replicate of each worker (and inside a
+                    // nested bootstrap); a plain replicate costs at most O(rows), so a stop is
+                    // still noticed within milliseconds.
+                    wk.tick = wk.tick.wrapping_add(1);
+                    if stopped.load(Ordering::Relaxed) || (wk.tick % 16 == 1 && should_stop()) {
                         return;
                     }
                     if let Some((a, b)) = ctx.replicate((start + k) as u64, wk, &should_stop) {
