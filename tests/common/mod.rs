@@ -1,4 +1,4 @@
-//! Shared helpers for black-box tests: spawn the real application on port 0 and talk HTTP.
+//! Shared helpers for black-box tests: spawn the real application on port 0 and send it real HTTP requests.
 //!
 //! Every response read through [`TestApp`] is checked against the OpenAPI document
 //! (`bandsaw::api::openapi`): its status must be documented for the operation, its content type
