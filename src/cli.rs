@@ -76,7 +76,7 @@ pub fn interval(config: &Config, input: Option<&str>) -> i32 {
         }
     };
     let started = Instant::now();
-    let result = pool.install(|| crate::api::interval::compute(&body, &settings, Arc::new(AtomicBool::new(false)), started));
+    let result = pool.install(|| crate::api::interval::compute(&body, &settings, Arc::new(AtomicBool::new(false)), started, None));
     match result {
         Ok(v) => {
             println!("{}", serde_json::to_string_pretty(&v).expect("JSON"));

@@ -132,14 +132,21 @@ pub struct PreparedJob {
 }
 
 /// Compute an interval response from a request body.
-pub fn compute(body: &[u8], settings: &Settings, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
+pub fn compute(
+    body: &[u8],
+    settings: &Settings,
+    cancel: Arc<AtomicBool>,
+    started: Instant,
+    replicate_cap: Option<u64>,
+) -> Result<Value, Problem> {
     let json = parse_json(body)?;
     if !json.is_object() {
         return Err(Problem::malformed_json(
             "the body must be a JSON object such as {\"data\": [1.5, 2.25, 3.0]}",
         ));
     }
-    let prepared = prepare(&json, settings, started, None)?;
+    let mut prepared = prepare(&json, settings, started, None)?;
+    prepared.job.replicate_cap = replicate_cap;
     execute(prepared, cancel, started)
 }
 
@@ -254,6 +261,7 @@ pub fn prepare(json: &Value, settings: &Settings, started: Instant, deadline_cap
         on_time_limit: req.on_time_limit,
         cancel: None,
         recorded_stop,
+        replicate_cap: None,
     };
     Ok(PreparedJob {
         sample_digest: req.sample.digest(),

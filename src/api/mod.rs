@@ -60,6 +60,9 @@ pub struct JobFacts {
 
 /// Header that makes a job panic when test hooks are on (tests of panic isolation only).
 pub const TEST_PANIC_HEADER: &str = "x-bandsaw-test-panic";
+/// Header that stops an interval job after this many replicates as if its time limit had passed,
+/// when test hooks are on (deterministic partial results for tests).
+pub const TEST_STOP_AFTER_HEADER: &str = "x-bandsaw-test-stop-after";
 
 pub fn router(state: AppState, cors_origins: &[String]) -> Router {
     let v1 = Router::new()
@@ -370,8 +373,12 @@ fn facts_of(v: &serde_json::Value) -> JobFacts {
 }
 
 async fn interval_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
-    compute_route(app, headers, body, |bytes, settings, cancel, started| {
-        interval::compute(&bytes, &settings, cancel, started)
+    let cap = headers
+        .get(TEST_STOP_AFTER_HEADER)
+        .filter(|_| app.test_hooks)
+        .and_then(|v| v.to_str().ok()?.parse().ok());
+    compute_route(app, headers, body, move |bytes, settings, cancel, started| {
+        interval::compute(&bytes, &settings, cancel, started, cap)
     })
     .await
 }

@@ -109,6 +109,9 @@ pub struct Job {
     /// Set when replaying a token: the stop the original run reported, so that the replay
     /// (which draws exactly the recorded number of resamples) reports the same.
     pub recorded_stop: Option<Stop>,
+    /// Stop as if the time limit had passed once this many replicates are done (a test hook
+    /// that makes partial results deterministic).
+    pub replicate_cap: Option<u64>,
 }
 
 impl Job {
@@ -129,6 +132,7 @@ impl Job {
             on_time_limit: OnTimeLimit::Fail,
             cancel: None,
             recorded_stop: None,
+            replicate_cap: None,
         }
     }
 }
@@ -330,7 +334,8 @@ fn cancelled(job: &Job) -> bool {
 /// at the deadline and cancel flag before it starts (and a nested bootstrap every few inner
 /// resamples), so a stop is noticed within one replicate however large the wave. On a stop the
 /// vectors keep the longest run of finished replicates from the start, and `false` is returned.
-fn generate(ctx: &Context, job: &Job, goal: u64, values: &mut Vec<f64>, ses: &mut Vec<f64>) -> Result<bool, RunError> {
+fn generate(ctx: &Context, job: &Job, wanted: u64, values: &mut Vec<f64>, ses: &mut Vec<f64>) -> Result<bool, RunError> {
+    let goal = job.replicate_cap.map_or(wanted, |cap| cap.min(wanted));
     let units = ctx.data.units();
     let threads = rayon::current_num_threads().max(1);
     // Start with a couple of replicates per thread, then grow towards WAVE_TARGET.
@@ -392,7 +397,7 @@ fn generate(ctx: &Context, job: &Job, goal: u64, values: &mut Vec<f64>, ses: &mu
     if cancelled(job) {
         return Err(RunError::Cancelled);
     }
-    Ok(values.len() as u64 >= goal)
+    Ok(values.len() as u64 >= wanted)
 }
 
 /// Run an interval job on the current rayon pool.
