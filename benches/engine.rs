@@ -25,8 +25,11 @@
 use std::time::Instant;
 
 use bandsaw::engine::data::Sample;
-use bandsaw::engine::interval::Method;
-use bandsaw::engine::run::{run, Include, Job, Resamples};
+use bandsaw::engine::driver;
+use bandsaw::engine::executor::Budget;
+use bandsaw::engine::interval::{Level, Method};
+use bandsaw::engine::job::{Job, Samples};
+use bandsaw::engine::plan::Resamples;
 use bandsaw::engine::statistic::StatisticSpec;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
@@ -85,12 +88,15 @@ fn main() {
     } else {
         threads
     };
-    let stats: Vec<(&str, StatisticSpec)> = match which {
-        "mean" => vec![("mean", StatisticSpec::Mean)],
-        "median" => vec![("median", StatisticSpec::Median)],
-        "all" => vec![("mean", StatisticSpec::Mean), ("median", StatisticSpec::Median)],
+    let names = match which {
+        "mean" | "median" => vec![which],
+        "all" => vec!["mean", "median"],
         other => usage(&format!("statistic must be mean, median or all, got {other:?}")),
     };
+    let stats: Vec<(&str, StatisticSpec)> = names
+        .into_iter()
+        .map(|name| (name, serde_json::from_value(serde_json::json!({ "name": name })).expect("a statistic")))
+        .collect();
 
     let x = standard_normal(n, DATA_SEED);
     let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().expect("rayon pool");
@@ -100,15 +106,15 @@ fn main() {
         let mut times = Vec::with_capacity(repeats);
         let (mut lower, mut upper) = (f64::NAN, f64::NAN);
         for r in 0..repeats {
-            // Build the job outside the timed region; `run` itself prepares the data (that is
+            // Build the job outside the timed region; preparing it lays the data out (that is
             // part of a request's work, as drawing the data is not part of numpy's).
-            let mut job = Job::new(Sample::Column(x.clone()), spec.clone(), 1000 + r as u64);
+            let sample = Sample::column(x.clone()).expect("finite data");
+            let mut job = Job::new(Samples::One(sample), spec.clone(), 1000 + r as u64);
             job.resamples = Resamples::Fixed(b);
             job.methods = vec![Method::Percentile];
-            job.levels = vec![0.95];
-            job.include = Include::default();
+            job.levels = vec![Level::new(0.95).expect("a level")];
             let t0 = Instant::now();
-            let out = pool.install(|| run(&job));
+            let out = pool.install(|| driver::prepare(job).and_then(|p| p.run(&Budget::default())));
             let secs = t0.elapsed().as_secs_f64();
             let out = out.unwrap_or_else(|e| {
                 eprintln!("engine bench: run failed for {name}: {e:?}");

@@ -1,43 +1,53 @@
 //! The command line: `bandsaw serve` (the default), `bandsaw interval`, which runs the same
 //! engine in-process on a request file, and `bandsaw openapi`, which prints the API's OpenAPI
-//! document.
+//! document. Each command offers only the flags that apply to it.
 
 use std::io::Read;
 use std::sync::atomic::AtomicBool;
 use std::sync::Arc;
 use std::time::Instant;
 
-use clap::{Parser, Subcommand};
+use clap::{Args, Parser, Subcommand};
 
-use crate::config::Config;
+use crate::config::{Config, Limits, Threads};
 
 #[derive(Debug, Parser)]
 #[command(
     name = "bandsaw",
     version,
-    about = "Bootstrap intervals for a data array: an HTTP service and an in-process command line."
+    about = "Bootstrap intervals for a data array: an HTTP service and an in-process command line.",
+    args_conflicts_with_subcommands = true
 )]
 pub struct Cli {
+    /// Without a command, bandsaw serves (the flags of `bandsaw serve` apply).
+    #[command(flatten)]
+    pub serve: Config,
     #[command(subcommand)]
     pub command: Option<Command>,
-    #[command(flatten)]
-    pub config: Config,
 }
 
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Serve the HTTP API (the default).
-    Serve,
+    Serve(Config),
     /// Compute one interval in-process: read a request body (the JSON of POST /v1/interval)
     /// from a file or standard input and print the response JSON.
-    Interval {
-        /// The request file; "-" or none reads standard input.
-        #[arg(long, short)]
-        input: Option<String>,
-    },
+    Interval(IntervalArgs),
     /// Print the OpenAPI 3.1 document of the HTTP API (the same bytes as GET /openapi.json
     /// and openapi/openapi.json).
     Openapi,
+}
+
+/// The flags of `bandsaw interval`.
+#[derive(Debug, Clone, Args)]
+pub struct IntervalArgs {
+    /// The request file; "-" or none reads standard input.
+    #[arg(long, short)]
+    pub input: Option<String>,
+    #[command(flatten)]
+    pub threads: Threads,
+    #[command(flatten)]
+    pub limits: Limits,
 }
 
 /// `bandsaw openapi`: print the OpenAPI document.
@@ -57,9 +67,9 @@ pub fn openapi() -> i32 {
 }
 
 /// `bandsaw interval`: returns the process exit code (0 success, 1 a problem, 2 unreadable input).
-pub fn interval(config: &Config, input: Option<&str>) -> i32 {
+pub fn interval(args: &IntervalArgs) -> i32 {
     let mut body = Vec::new();
-    let read = match input {
+    let read = match args.input.as_deref() {
         None | Some("-") => std::io::stdin().read_to_end(&mut body).map(|_| ()),
         Some(path) => std::fs::read(path).map(|b| body = b),
     };
@@ -67,8 +77,7 @@ pub fn interval(config: &Config, input: Option<&str>) -> i32 {
         eprintln!("bandsaw: cannot read the request: {e}");
         return 2;
     }
-    let settings = config.settings();
-    let pool = match rayon::ThreadPoolBuilder::new().num_threads(config.thread_count()).build() {
+    let pool = match rayon::ThreadPoolBuilder::new().num_threads(args.threads.count()).build() {
         Ok(p) => p,
         Err(e) => {
             eprintln!("bandsaw: cannot start the compute threads: {e}");
@@ -76,7 +85,8 @@ pub fn interval(config: &Config, input: Option<&str>) -> i32 {
         }
     };
     let started = Instant::now();
-    let result = pool.install(|| crate::api::interval::compute(&body, &settings, Arc::new(AtomicBool::new(false)), started, None));
+    let cancel = Arc::new(AtomicBool::new(false));
+    let result = pool.install(|| crate::api::interval::compute(&body, &args.limits, cancel, started, None));
     match result {
         Ok(v) => {
             println!("{}", serde_json::to_string_pretty(&v).expect("JSON"));

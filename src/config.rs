@@ -1,101 +1,136 @@
-//! Configuration: every limit has a safe default and can be set by flag or `BANDSAW_*`
-//! environment variable.
+//! Configuration: every limit has a safe default, written once here (or in the engine, for the
+//! engine's own), and can be set by flag or `BANDSAW_*` environment variable.
 
 use clap::Args;
 
+use crate::engine::job::{DEFAULT_MAX_RESAMPLES, DEFAULT_MAX_WORK};
+use crate::telemetry::LogFormat;
+
+pub const DEFAULT_LISTEN: &str = "127.0.0.1:8080";
+pub const DEFAULT_MAX_BODY_BYTES: usize = 32 * 1024 * 1024;
+pub const DEFAULT_MAX_ROWS: u64 = 1_000_000;
+pub const DEFAULT_TIME_LIMIT_MS: u64 = 10_000;
+pub const DEFAULT_MAX_TIME_LIMIT_MS: u64 = 60_000;
+pub const DEFAULT_MAX_BATCH_JOBS: usize = 1000;
+pub const DEFAULT_SHUTDOWN_GRACE_MS: u64 = 30_000;
+/// Jobs that may wait per compute thread when no queue depth is set.
+pub const QUEUE_PER_THREAD: usize = 4;
+
+/// What one request may ask of the engine: the same whether it is served or run in-process.
+#[derive(Debug, Clone, Args)]
+pub struct Limits {
+    /// Most rows (or distinct values) in one sample.
+    #[arg(long, env = "BANDSAW_MAX_ROWS", default_value_t = DEFAULT_MAX_ROWS)]
+    pub max_rows: u64,
+    /// Most resamples in one job (also the limit on distinct resamples for "exact").
+    #[arg(long, env = "BANDSAW_MAX_RESAMPLES", default_value_t = DEFAULT_MAX_RESAMPLES)]
+    pub max_resamples: u64,
+    /// Most row-draws (rows × resamples × the statistic's relative cost) in one job, or batch.
+    #[arg(long, env = "BANDSAW_WORK_LIMIT", default_value_t = DEFAULT_MAX_WORK)]
+    pub work_limit: f64,
+    /// Time limit of a request that sets none, in milliseconds.
+    #[arg(long, env = "BANDSAW_DEFAULT_TIME_LIMIT_MS", default_value_t = DEFAULT_TIME_LIMIT_MS)]
+    pub default_time_limit_ms: u64,
+    /// Largest time limit a request may ask for, in milliseconds.
+    #[arg(long, env = "BANDSAW_MAX_TIME_LIMIT_MS", default_value_t = DEFAULT_MAX_TIME_LIMIT_MS)]
+    pub max_time_limit_ms: u64,
+    /// Most jobs in one batch request.
+    #[arg(long, env = "BANDSAW_MAX_BATCH_JOBS", default_value_t = DEFAULT_MAX_BATCH_JOBS)]
+    pub max_batch_jobs: usize,
+}
+
+impl Default for Limits {
+    fn default() -> Self {
+        Limits {
+            max_rows: DEFAULT_MAX_ROWS,
+            max_resamples: DEFAULT_MAX_RESAMPLES,
+            work_limit: DEFAULT_MAX_WORK,
+            default_time_limit_ms: DEFAULT_TIME_LIMIT_MS,
+            max_time_limit_ms: DEFAULT_MAX_TIME_LIMIT_MS,
+            max_batch_jobs: DEFAULT_MAX_BATCH_JOBS,
+        }
+    }
+}
+
+/// Compute threads (0: one per core).
+#[derive(Debug, Clone, Copy, Default, Args)]
+pub struct Threads {
+    /// Compute threads (0: one per core).
+    #[arg(long, env = "BANDSAW_THREADS", default_value_t = 0)]
+    pub threads: usize,
+}
+
+impl Threads {
+    pub fn count(self) -> usize {
+        if self.threads == 0 {
+            std::thread::available_parallelism().map(|n| n.get()).unwrap_or(1)
+        } else {
+            self.threads
+        }
+    }
+}
+
+/// The settings of the server.
 #[derive(Debug, Clone, Args)]
 pub struct Config {
     /// Address to listen on.
-    #[arg(long, global = true, env = "BANDSAW_LISTEN", default_value = "127.0.0.1:8080")]
+    #[arg(long, env = "BANDSAW_LISTEN", default_value = DEFAULT_LISTEN)]
     pub listen: String,
-    /// Compute threads (0: one per core).
-    #[arg(long, global = true, env = "BANDSAW_THREADS", default_value_t = 0)]
-    pub threads: usize,
+    #[command(flatten)]
+    pub threads: Threads,
+    #[command(flatten)]
+    pub limits: Limits,
     /// Largest request body in bytes.
-    #[arg(long, global = true, env = "BANDSAW_MAX_BODY_BYTES", default_value_t = 32 * 1024 * 1024)]
+    #[arg(long, env = "BANDSAW_MAX_BODY_BYTES", default_value_t = DEFAULT_MAX_BODY_BYTES)]
     pub max_body_bytes: usize,
-    /// Most rows (or distinct values) in one sample.
-    #[arg(long, global = true, env = "BANDSAW_MAX_ROWS", default_value_t = 1_000_000)]
-    pub max_rows: u64,
-    /// Most resamples in one job (also the limit on distinct resamples for "exact").
-    #[arg(long, global = true, env = "BANDSAW_MAX_RESAMPLES", default_value_t = 1_000_000)]
-    pub max_resamples: u64,
-    /// Most row-draws (rows × resamples × the statistic's relative cost) in one job.
-    #[arg(long, global = true, env = "BANDSAW_WORK_LIMIT", default_value_t = 2e10)]
-    pub work_limit: f64,
-    /// Time limit of a request that sets none, in milliseconds.
-    #[arg(long, global = true, env = "BANDSAW_DEFAULT_TIME_LIMIT_MS", default_value_t = 10_000)]
-    pub default_time_limit_ms: u64,
-    /// Largest time limit a request may ask for, in milliseconds.
-    #[arg(long, global = true, env = "BANDSAW_MAX_TIME_LIMIT_MS", default_value_t = 60_000)]
-    pub max_time_limit_ms: u64,
     /// Jobs that may wait for a compute thread (0: four per thread); beyond them requests are
     /// answered 503 overloaded at once.
-    #[arg(long, global = true, env = "BANDSAW_QUEUE", default_value_t = 0)]
+    #[arg(long, env = "BANDSAW_QUEUE", default_value_t = 0)]
     pub queue: usize,
-    /// Most jobs in one batch request.
-    #[arg(long, global = true, env = "BANDSAW_MAX_BATCH_JOBS", default_value_t = 1000)]
-    pub max_batch_jobs: usize,
     /// API keys accepted as `Authorization: Bearer <key>` on /v1/* (comma-separated; none: open).
-    #[arg(long, global = true, env = "BANDSAW_API_KEYS", default_value = "", hide_env_values = true)]
+    #[arg(long, env = "BANDSAW_API_KEYS", default_value = "", hide_env_values = true)]
     pub api_keys: String,
     /// A file with one API key per line (blank lines and lines starting with # are ignored).
-    #[arg(long, global = true, env = "BANDSAW_API_KEY_FILE")]
+    #[arg(long, env = "BANDSAW_API_KEY_FILE")]
     pub api_key_file: Option<String>,
     /// Origins allowed to call the API from a browser (comma-separated, or "*"; none: CORS off).
-    #[arg(long, global = true, env = "BANDSAW_CORS_ORIGINS", default_value = "")]
+    #[arg(long, env = "BANDSAW_CORS_ORIGINS", default_value = "")]
     pub cors_origins: String,
     /// How long shutdown waits for requests in flight, in milliseconds.
-    #[arg(long, global = true, env = "BANDSAW_SHUTDOWN_GRACE_MS", default_value_t = 30_000)]
+    #[arg(long, env = "BANDSAW_SHUTDOWN_GRACE_MS", default_value_t = DEFAULT_SHUTDOWN_GRACE_MS)]
     pub shutdown_grace_ms: u64,
-    /// Test hooks (a request header that makes the job panic); never set from the command line.
+    /// How log lines are written.
+    #[arg(long, env = "BANDSAW_LOG_FORMAT", value_enum, default_value_t = LogFormat::Pretty)]
+    pub log_format: LogFormat,
+    /// Test hooks (request headers that make a job panic, or stop it early); never set from the
+    /// command line.
     #[arg(skip)]
     pub test_hooks: bool,
-    /// Log format: "pretty" or "json".
-    #[arg(long, global = true, env = "BANDSAW_LOG_FORMAT", default_value = "pretty")]
-    pub log_format: String,
 }
 
 impl Default for Config {
     fn default() -> Self {
         Config {
-            listen: "127.0.0.1:8080".into(),
-            threads: 0,
-            max_body_bytes: 32 * 1024 * 1024,
-            max_rows: 1_000_000,
-            max_resamples: 1_000_000,
-            work_limit: 2e10,
-            default_time_limit_ms: 10_000,
-            max_time_limit_ms: 60_000,
+            listen: DEFAULT_LISTEN.into(),
+            threads: Threads::default(),
+            limits: Limits::default(),
+            max_body_bytes: DEFAULT_MAX_BODY_BYTES,
             queue: 0,
-            max_batch_jobs: 1000,
             api_keys: String::new(),
             api_key_file: None,
             cors_origins: String::new(),
-            shutdown_grace_ms: 30_000,
+            shutdown_grace_ms: DEFAULT_SHUTDOWN_GRACE_MS,
+            log_format: LogFormat::Pretty,
             test_hooks: false,
-            log_format: "pretty".into(),
         }
     }
 }
 
 impl Config {
-    pub fn settings(&self) -> crate::api::interval::Settings {
-        crate::api::interval::Settings {
-            limits: crate::api::request::Limits {
-                max_rows: self.max_rows,
-                max_resamples: self.max_resamples,
-                default_time_limit_ms: self.default_time_limit_ms,
-                max_time_limit_ms: self.max_time_limit_ms,
-            },
-            work_limit: self.work_limit,
-        }
-    }
-
-    /// Queue depth: the configured one, or four per thread.
+    /// Queue depth: the configured one, or [`QUEUE_PER_THREAD`] per thread.
     pub fn queue_depth(&self) -> usize {
         if self.queue == 0 {
-            4 * self.thread_count()
+            QUEUE_PER_THREAD * self.threads.count()
         } else {
             self.queue
         }
@@ -103,13 +138,7 @@ impl Config {
 
     /// Every accepted API key, from the list and the key file.
     pub fn keys(&self) -> std::io::Result<Vec<String>> {
-        let mut keys: Vec<String> = self
-            .api_keys
-            .split(',')
-            .map(str::trim)
-            .filter(|k| !k.is_empty())
-            .map(String::from)
-            .collect();
+        let mut keys: Vec<String> = split_list(&self.api_keys);
         if let Some(path) = &self.api_key_file {
             let text = std::fs::read_to_string(path)?;
             keys.extend(
@@ -123,19 +152,11 @@ impl Config {
     }
 
     pub fn cors(&self) -> Vec<String> {
-        self.cors_origins
-            .split(',')
-            .map(str::trim)
-            .filter(|o| !o.is_empty())
-            .map(String::from)
-            .collect()
+        split_list(&self.cors_origins)
     }
+}
 
-    pub fn thread_count(&self) -> usize {
-        if self.threads == 0 {
-            std::thread::available_parallelism().map(|n| n.get()).unwrap_or(1)
-        } else {
-            self.threads
-        }
-    }
+/// The non-empty items of a comma-separated list.
+fn split_list(s: &str) -> Vec<String> {
+    s.split(',').map(str::trim).filter(|x| !x.is_empty()).map(String::from).collect()
 }

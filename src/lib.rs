@@ -20,4 +20,3 @@ pub mod config;
 pub mod engine;
 pub mod server;
 pub mod telemetry;
-pub mod token;

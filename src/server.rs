@@ -29,13 +29,12 @@ impl Application {
         let listener = TcpListener::bind(&config.listen).await?;
         let address = listener.local_addr()?;
         let metrics = Arc::new(Metrics::new());
-        let pool = Arc::new(ComputePool::new(config.thread_count(), config.queue_depth(), metrics.clone())?);
+        let pool = Arc::new(ComputePool::new(config.threads.count(), config.queue_depth(), metrics.clone())?);
         let state = AppState {
             pool: pool.clone(),
-            settings: Arc::new(config.settings()),
+            limits: Arc::new(config.limits.clone()),
             metrics,
             max_body_bytes: config.max_body_bytes,
-            max_batch_jobs: config.max_batch_jobs,
             key_digests: Arc::new(keys.iter().map(|k| Sha256::digest(k.as_bytes()).into()).collect()),
             test_hooks: config.test_hooks,
         };

@@ -99,14 +99,27 @@ impl Metrics {
     }
 }
 
-/// Install the global log subscriber: "json" or "pretty", filtered by `BANDSAW_LOG`
-/// (default `info`), written to standard error.
-pub fn init_logging(format: &str) {
+/// How log lines are written.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum LogFormat {
+    /// One line a person reads, coloured only when standard error is a terminal.
+    Pretty,
+    /// One JSON object per line, for log collectors.
+    Json,
+}
+
+/// Install the global log subscriber, filtered by `BANDSAW_LOG` (default `info`), written to
+/// standard error. Colour codes are written only to a terminal: in a file or a collector they
+/// would be noise.
+pub fn init_logging(format: LogFormat) {
+    use std::io::IsTerminal;
     let filter = tracing_subscriber::EnvFilter::try_from_env("BANDSAW_LOG").unwrap_or_else(|_| "info".into());
-    let builder = tracing_subscriber::fmt().with_env_filter(filter).with_writer(std::io::stderr);
-    let _ = if format == "json" {
-        builder.json().flatten_event(true).with_current_span(true).try_init()
-    } else {
-        builder.try_init()
+    let builder = tracing_subscriber::fmt()
+        .with_env_filter(filter)
+        .with_writer(std::io::stderr)
+        .with_ansi(std::io::stderr().is_terminal());
+    let _ = match format {
+        LogFormat::Json => builder.json().flatten_event(true).with_current_span(true).try_init(),
+        LogFormat::Pretty => builder.try_init(),
     };
 }

@@ -41,11 +41,12 @@ def statistic_fn(stat):
     if name == "quantile":
         p = params["p"]
         return lambda x: float(q7(x, p))
+    # The divisor "n" is numpy's ddof=0, "n-1" its ddof=1.
     if name == "variance":
-        ddof = params.get("ddof", 0)
+        ddof = {"n": 0, "n-1": 1}[params.get("divisor", "n")]
         return lambda x: float(np.var(x, ddof=ddof))
     if name == "std_dev":
-        ddof = params.get("ddof", 0)
+        ddof = {"n": 0, "n-1": 1}[params.get("divisor", "n")]
         return lambda x: float(np.std(x, ddof=ddof))
     raise ValueError(f"statistic {name!r} not implemented in the reference")
 

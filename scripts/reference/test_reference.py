@@ -43,12 +43,12 @@ REL = 1e-9
 # spatial test data, column A (from memory; see spatial_bca.py).
 SPATIAL_A = [48, 36, 20, 29, 42, 42, 20, 42, 22, 41, 45, 14, 6, 0, 33, 28, 34, 4,
              32, 24, 47, 41, 24, 26, 30, 41]
-# Efron & Tibshirani (1993), Table 3.1, law school LSAT (shared/REFERENCES.md).
+# Efron & Tibshirani (1993), Table 3.1, law school LSAT (docs/references.md).
 LSAT = [576, 635, 558, 578, 666, 580, 555, 661, 651, 605, 653, 575, 545, 572, 594]
 # Invented: 30 checkout basket sizes (items per order), right-skewed, many ties.
 BASKETS = [1, 1, 1, 2, 1, 3, 2, 1, 4, 1, 2, 6, 1, 1, 2, 3, 1, 9, 2, 1, 1, 5, 2, 1,
            14, 3, 1, 2, 1, 7]
-# shared/REFERENCES.md, sample-quantile example (Hyndman & Fan 1996).
+# docs/references.md, sample-quantile example (Hyndman & Fan 1996).
 SMALL = [2, 5, 7, 7, 3, 9, 4, 6]
 
 DATASETS = {"spatial_A": SPATIAL_A, "lsat": LSAT, "baskets": BASKETS, "small8": SMALL}
@@ -277,7 +277,7 @@ def test_sample_quantiles_hyndman_fan_7(server_url, p, expected):
     """Hyndman, R. J. & Fan, Y. (1996), The American Statistician 50(4),
     definition 7; numpy 2.4.6 quantile(method="linear"). For x = [2,5,7,7,3,9,4,6]
     the estimate equals numpy.quantile(x, p) (2.7, 3.75, 5.5, 7.6,
-    shared/REFERENCES.md) to 1e-12."""
+    docs/references.md) to 1e-12."""
     want = float(np.quantile(np.asarray(SMALL, dtype=float), p, method="linear"))
     assert abs(want - expected) <= 1e-12
     for stat in ([{"name": "quantile", "p": p}] + (["median"] if p == 0.5 else [])):
@@ -325,7 +325,7 @@ def test_mean_standard_error_near_exact_bootstrap_value(server_url, data_key):
 
 
 def test_same_seed_same_answer(server_url):
-    """Reproducibility (API.md, `seed`): the same request with the same seed
+    """Reproducibility (docs/api.md, `seed`): the same request with the same seed
     gives the same replicates and intervals, bit for bit (compared as parsed
     JSON numbers, Python 3.11 json)."""
     body = {"data": BASKETS, "statistic": "median", "resamples": 1000, "seed": 424242,

@@ -6,151 +6,209 @@ use std::sync::atomic::AtomicBool;
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
-use serde_json::{json, Map, Value};
+use serde::Serialize;
+use serde_json::Value;
+use utoipa::openapi::schema::{OneOfBuilder, Schema};
+use utoipa::openapi::RefOr;
+use utoipa::{PartialSchema, ToSchema};
 
-use super::interval::{self, PreparedJob, Settings};
+use super::decode::{describe, Decode, Errors};
+use super::interval::{self, PreparedJob};
 use super::problem::{FieldError, Problem};
-use super::request::describe;
+use super::request::{IntervalRequest, TimeLimitMs};
+use super::response::IntervalResponse;
+use super::rules::Rule;
+use crate::config::Limits;
+use crate::engine::interval::{Level, DEFAULT_LEVEL};
+use crate::engine::job::Multiplicity;
 
-const BATCH_FIELDS: &[&str] = &["jobs", "family_level", "adjust", "time_limit_ms"];
+crate::decode_with_serde!(Multiplicity);
 
-fn prefixed(mut p: Problem, i: usize) -> Value {
+crate::wire_enum! {
+    /// The kind of a batch job.
+    pub enum JobKind {
+        /// One sample, one statistic: the fields of `POST /v1/interval`.
+        Interval = "interval",
+    }
+}
+
+/// The jobs of a batch, each read on its own when the batch runs (so that a bad job gets its
+/// own error).
+#[derive(Debug, Clone)]
+pub struct Jobs(pub Vec<Value>);
+
+impl Decode for Jobs {
+    fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
+        match v {
+            Value::Array(a) if !a.is_empty() => Some(Jobs(a.clone())),
+            other => {
+                errs.push(at, format!("must be a non-empty array of jobs; got {}", describe(other)));
+                None
+            }
+        }
+    }
+}
+
+/// An interval job of a batch: the fields of an interval request with `"kind": "interval"`.
+pub struct IntervalJob;
+
+impl PartialSchema for IntervalJob {
+    fn schema() -> RefOr<Schema> {
+        let mut schema = IntervalRequest::schema();
+        if let RefOr::T(Schema::Object(o)) = &mut schema {
+            o.properties.insert("kind".into(), RefOr::T(JobKind::schema().into()));
+            o.required.insert(0, "kind".into());
+            o.description = Some("An interval job of a batch: the fields of an interval request with `\"kind\": \"interval\"`.".into());
+        }
+        schema
+    }
+}
+
+impl ToSchema for IntervalJob {}
+
+impl PartialSchema for Jobs {
+    fn schema() -> RefOr<Schema> {
+        utoipa::openapi::schema::ArrayBuilder::new()
+            .items(OneOfBuilder::new().item(utoipa::openapi::Ref::from_schema_name("IntervalJob")))
+            .min_items(Some(1))
+            .description(Some("1 to the server's `limits.max_batch_jobs` jobs, each told apart by `kind`."))
+            .into()
+    }
+}
+
+impl ToSchema for Jobs {
+    fn schemas(schemas: &mut Vec<(String, RefOr<Schema>)>) {
+        schemas.push(("IntervalJob".into(), IntervalJob::schema()));
+    }
+}
+
+fn default_family_level() -> Level {
+    Level::new(DEFAULT_LEVEL).expect("in range")
+}
+
+crate::wire_object! {
+    /// The body of `POST /v1/batch`. Unknown fields are refused (422).
+    pub struct BatchRequest {
+        required
+        jobs: Jobs,
+        default
+        /// The level the whole family of results holds at with a multiplicity correction.
+        family_level: Level = default_family_level,
+        default
+        multiplicity: Multiplicity = Multiplicity::default,
+        optional
+        /// Wall-clock budget for the whole batch in milliseconds, capped by the server's
+        /// `limits.max_time_limit_ms`; each job's own `time_limit_ms` applies within it.
+        time_limit_ms: TimeLimitMs,
+    }
+}
+
+/// One job's outcome: `{"ok": result}` or `{"error": problem}`.
+#[derive(Debug, Clone, Serialize, ToSchema)]
+#[serde(untagged)]
+pub enum BatchResult {
+    Ok {
+        #[schema(value_type = IntervalResponse)]
+        ok: Value,
+    },
+    Error {
+        /// The job's problem; its pointers start with `/jobs/<index>`.
+        error: Problem,
+    },
+}
+
+/// The response of `POST /v1/batch`.
+#[derive(Debug, Clone, Serialize, ToSchema)]
+pub struct BatchResponse {
+    /// One outcome per job, in the order of the jobs.
+    pub results: Vec<BatchResult>,
+    pub multiplicity: Multiplicity,
+    /// The family level of the request.
+    pub family_level: Level,
+    /// Milliseconds from receiving the request to the response.
+    #[schema(minimum = 0)]
+    pub elapsed_ms: f64,
+}
+
+fn prefixed(mut p: Problem, i: usize) -> Problem {
     for e in &mut p.errors {
         e.pointer = format!("/jobs/{i}{}", e.pointer);
     }
-    serde_json::to_value(&p).expect("a problem serialises")
+    p
 }
 
-/// Run a batch body. `max_jobs` bounds the number of jobs.
-pub fn compute(body: &[u8], settings: &Settings, max_jobs: usize, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
-    let json = interval::parse_json(body)?;
-    let Value::Object(obj) = &json else {
-        return Err(Problem::malformed_json(
-            "the body must be a JSON object such as {\"jobs\": [{\"kind\": \"interval\", \"data\": [1, 2, 3]}]}",
-        ));
+/// Read and check one job.
+fn prepare_job(i: usize, job: &Value, limits: &Limits, started: Instant, deadline: Instant) -> Result<PreparedJob, Problem> {
+    let invalid = |pointer: &str, message: String| prefixed(Problem::invalid(vec![FieldError::new(pointer, message)]), i);
+    let Value::Object(o) = job else {
+        return Err(invalid("", format!("a job must be an object; got {}", describe(job))));
     };
-    let mut errs = Vec::new();
-    for k in obj.keys() {
-        if !BATCH_FIELDS.contains(&k.as_str()) {
-            errs.push(FieldError::new(
-                format!("/{}", super::problem::escape_token(k)),
-                "unknown field; the fields here are \"jobs\", \"family_level\", \"adjust\", \"time_limit_ms\"",
-            ));
-        }
-    }
-    let jobs = match obj.get("jobs") {
-        Some(Value::Array(a)) if !a.is_empty() && a.len() <= max_jobs => Some(a),
-        Some(Value::Array(a)) => {
-            errs.push(FieldError::new(
-                "/jobs",
-                format!("must hold 1 to {max_jobs} jobs; it holds {}", a.len()),
-            ));
-            None
-        }
-        Some(v) => {
-            errs.push(FieldError::new("/jobs", format!("must be an array of jobs; got {}", describe(v))));
-            None
-        }
+    let mut errs = Errors::default();
+    let kind: Option<JobKind> = match o.get("kind") {
+        Some(k) => Decode::decode(k, "/kind", &mut errs),
         None => {
-            errs.push(FieldError::new(
-                "/jobs",
-                "is required: an array of {\"kind\": \"interval\", ...} jobs",
-            ));
+            errs.push("/kind", "is required: \"interval\"");
             None
         }
     };
-    let family_level = match obj.get("family_level") {
-        None => 0.95,
-        Some(v) => match v.as_f64() {
-            Some(x) if x > 0.0 && x < 1.0 => x,
-            _ => {
-                errs.push(FieldError::new(
-                    "/family_level",
-                    format!("must be a level strictly between 0 and 1; got {}", describe(v)),
-                ));
-                0.95
-            }
-        },
-    };
-    let adjust = match obj.get("adjust") {
-        None => "none",
-        Some(Value::String(s)) if s == "none" => "none",
-        Some(Value::String(s)) if s == "bonferroni" => "bonferroni",
-        Some(Value::String(s)) if s == "holm" => "holm",
-        Some(v) => {
-            errs.push(FieldError::new(
-                "/adjust",
-                format!("must be \"none\", \"bonferroni\" or \"holm\"; got {}", describe(v)),
-            ));
-            "none"
-        }
-    };
-    let time_limit_ms = match obj.get("time_limit_ms") {
-        None => settings.limits.default_time_limit_ms,
-        Some(v) => match v.as_u64() {
-            Some(t) if t >= 1 => t.min(settings.limits.max_time_limit_ms),
-            _ => {
-                errs.push(FieldError::new(
-                    "/time_limit_ms",
-                    format!("must be a whole number of milliseconds, 1 or more; got {}", describe(v)),
-                ));
-                0
-            }
-        },
-    };
-    if !errs.is_empty() {
-        return Err(Problem::invalid(errs));
+    match kind {
+        Some(JobKind::Interval) => interval::prepare(job, &["kind"], limits, started, Some(deadline)).map_err(|p| prefixed(p, i)),
+        None => Err(prefixed(Problem::invalid(errs.0), i)),
     }
-    let jobs = jobs.expect("checked");
-    let deadline = started + Duration::from_millis(time_limit_ms);
+}
 
-    // Validate every job and estimate the batch's work before running any of them.
-    let mut prepared: Vec<Result<PreparedJob, Value>> = Vec::with_capacity(jobs.len());
-    for (i, job) in jobs.iter().enumerate() {
-        let entry = match job {
-            Value::Object(o) => match o.get("kind").and_then(Value::as_str) {
-                Some("interval") => {
-                    let mut rest: Map<String, Value> = o.clone();
-                    rest.remove("kind");
-                    interval::prepare(&Value::Object(rest), settings, started, Some(deadline)).map_err(|p| prefixed(p, i))
-                }
-                Some("compare") => Err(prefixed(
-                    Problem::invalid(vec![FieldError::new(
-                        "/kind",
-                        "compare jobs are part of the contract but this server version does not run them yet; send interval jobs",
-                    )]),
-                    i,
-                )),
-                _ => Err(prefixed(
-                    Problem::invalid(vec![FieldError::new("/kind", "is required: \"interval\" or \"compare\"")]),
-                    i,
-                )),
-            },
-            other => Err(prefixed(
-                Problem::invalid(vec![FieldError::new(
-                    "",
-                    format!("a job must be an object; got {}", describe(other)),
-                )]),
-                i,
-            )),
-        };
-        prepared.push(entry);
+crate::decode_with_serde!(JobKind);
+
+/// Run a batch body.
+pub fn compute(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
+    let json = interval::parse_json(body)?;
+    let mut errs = Errors::default();
+    let req = BatchRequest::decode(json.as_object().expect("an object"), "", &[], &mut errs);
+    if let Some(r) = &req {
+        if r.jobs.0.len() > limits.max_batch_jobs {
+            errs.refuse(
+                "/jobs",
+                Rule::BatchLimit,
+                format!("must hold 1 to {} jobs; it holds {}", limits.max_batch_jobs, r.jobs.0.len()),
+            );
+        }
     }
-    let total_work: f64 = prepared.iter().filter_map(|p| p.as_ref().ok()).map(|p| p.work).sum();
-    if total_work > settings.work_limit {
-        return Err(Problem::work_limit(total_work, settings.work_limit));
+    let req = match req {
+        Some(r) if errs.is_empty() => r,
+        _ => return Err(Problem::invalid(errs.0)),
+    };
+    let time_limit_ms = req
+        .time_limit_ms
+        .map_or(limits.default_time_limit_ms, |t| t.get())
+        .min(limits.max_time_limit_ms);
+    let deadline = started + Duration::from_millis(time_limit_ms);
+    // Check every job and the batch's work before running any of them.
+    let prepared: Vec<Result<PreparedJob, Problem>> = req
+        .jobs
+        .0
+        .iter()
+        .enumerate()
+        .map(|(i, job)| prepare_job(i, job, limits, started, deadline))
+        .collect();
+    let total_work: f64 = prepared.iter().filter_map(|p| p.as_ref().ok()).map(PreparedJob::work).sum();
+    if total_work > limits.work_limit {
+        return Err(Problem::work_limit(total_work, limits.work_limit));
     }
-    let results: Vec<Value> = prepared
+    let results: Vec<BatchResult> = prepared
         .into_iter()
         .enumerate()
-        .map(|(i, p)| match p {
-            Ok(job) => match interval::execute(job, cancel.clone(), started) {
-                Ok(v) => json!({ "ok": v }),
-                Err(problem) => json!({ "error": prefixed(problem, i) }),
+        .map(
+            |(i, p)| match p.and_then(|job| interval::execute(job, cancel.clone(), None, started).map_err(|e| prefixed(e, i))) {
+                Ok(ok) => BatchResult::Ok { ok },
+                Err(error) => BatchResult::Error { error },
             },
-            Err(problem) => json!({ "error": problem }),
-        })
+        )
         .collect();
-    let elapsed_ms = (started.elapsed().as_secs_f64() * 1e6).round() / 1e3;
-    Ok(json!({ "results": results, "adjust": adjust, "family_level": family_level, "elapsed_ms": elapsed_ms }))
+    let resp = BatchResponse {
+        results,
+        multiplicity: req.multiplicity,
+        family_level: req.family_level,
+        elapsed_ms: (started.elapsed().as_secs_f64() * 1e6).round() / 1e3,
+    };
+    serde_json::to_value(&resp).map_err(|e| Problem::internal(format!("could not encode the result: {e}")))
 }

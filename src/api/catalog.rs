@@ -1,45 +1,61 @@
 //! `GET /v1/catalog`: every statistic, scheme and interval method with its parameters, the
 //! resample modes, the diagnostic codes, and this server's limits.
+//!
+//! Nothing here is written twice: statistics and schemes are read from the OpenAPI document's
+//! schemas (which their spec types generate), their facts from the engine's registry, and the
+//! lists from the engine's enums.
+
+use std::sync::OnceLock;
 
 use serde::Serialize;
+use serde_json::Value;
 use utoipa::ToSchema;
+
+use super::fields::ResampleMode;
+use crate::engine::diagnostics::WarningCode;
+use crate::engine::interval::Method;
+use crate::engine::job::Include;
+use crate::engine::kernel::SeSource;
+use crate::engine::statistic::{Shape, StatisticSpec};
 
 #[derive(Debug, Clone, Serialize, ToSchema)]
 pub struct Parameter {
-    pub name: &'static str,
-    /// "number", "integer", "string" or "column" (a column name of the data).
+    pub name: String,
+    /// "number", "integer", "boolean", "string" or "column" (a column name of the data).
     #[serde(rename = "type")]
-    pub kind: &'static str,
+    pub kind: String,
     pub required: bool,
-    /// The default, as JSON, where there is one.
+    /// The default, where there is one.
     #[serde(skip_serializing_if = "Option::is_none")]
     #[schema(value_type = Option<Object>)]
-    pub default: Option<serde_json::Value>,
-    pub description: &'static str,
+    pub default: Option<Value>,
+    /// The values a string parameter takes, where they are few.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
+    pub values: Option<Vec<String>>,
+    pub description: String,
 }
 
 #[derive(Debug, Clone, Serialize, ToSchema)]
 pub struct StatisticEntry {
-    pub name: &'static str,
+    pub name: String,
     /// "one_column" (an array or values/counts) or "columns" (named columns).
-    pub data: &'static str,
+    pub data: String,
     pub parameters: Vec<Parameter>,
-    /// How the studentized interval gets its per-resample standard error: "analytic" or "nested".
-    pub studentized_standard_error: &'static str,
-    pub description: &'static str,
+    /// How the studentized interval gets its per-resample standard error.
+    pub studentized_standard_error: SeSource,
+    pub description: String,
 }
 
 #[derive(Debug, Clone, Serialize, ToSchema)]
 pub struct SchemeEntry {
-    pub kind: &'static str,
-    /// False for kinds of the contract that this server version does not draw yet.
-    pub available: bool,
-    pub description: &'static str,
+    pub kind: String,
+    pub description: String,
 }
 
 #[derive(Debug, Clone, Serialize, ToSchema)]
 pub struct MethodEntry {
-    pub name: &'static str,
+    pub name: Method,
     pub description: &'static str,
     pub source: &'static str,
 }
@@ -68,181 +84,125 @@ pub struct CatalogResponse {
     pub schemes: Vec<SchemeEntry>,
     pub methods: Vec<MethodEntry>,
     /// Accepted values of `resamples` besides a whole number.
-    pub resample_modes: Vec<&'static str>,
-    pub include: Vec<&'static str>,
+    pub resample_modes: Vec<ResampleMode>,
+    pub include: Vec<Include>,
     /// Stable codes of `diagnostics.warnings`.
-    pub warning_codes: Vec<&'static str>,
+    pub warning_codes: Vec<WarningCode>,
     pub limits: LimitsEntry,
 }
 
-fn p(name: &'static str, kind: &'static str, required: bool, default: Option<serde_json::Value>, description: &'static str) -> Parameter {
+/// The variants of a tagged union of the document, as (tag value, variant object).
+fn variants<'a>(doc: &'a Value, schema: &str, tag: &str) -> Vec<(String, &'a Value)> {
+    doc["components"]["schemas"][schema]["oneOf"]
+        .as_array()
+        .unwrap_or_else(|| panic!("{schema} is a oneOf in the document"))
+        .iter()
+        .map(|v| {
+            (
+                v["properties"][tag]["enum"][0]
+                    .as_str()
+                    .unwrap_or_else(|| panic!("{schema} variants carry {tag}"))
+                    .to_string(),
+                v,
+            )
+        })
+        .collect()
+}
+
+/// Follow a local `$ref` of the document.
+fn resolve<'a>(doc: &'a Value, v: &'a Value) -> (&'a Value, Option<&'a str>) {
+    match v.get("$ref").and_then(Value::as_str) {
+        Some(r) => (doc.pointer(r.trim_start_matches('#')).unwrap_or(v), r.rsplit('/').next()),
+        None => (v, None),
+    }
+}
+
+fn parameter(doc: &Value, name: &str, property: &Value, required: bool) -> Parameter {
+    let (schema, component) = resolve(doc, property);
+    let values = schema["enum"]
+        .as_array()
+        .map(|e| e.iter().filter_map(|x| x.as_str().map(String::from)).collect());
+    let kind = match (component, schema["type"].as_str()) {
+        (Some("ColumnName"), _) => "column",
+        (_, Some(t)) => t,
+        _ => "string",
+    };
+    let description = property["description"].as_str().or(schema["description"].as_str()).unwrap_or("");
     Parameter {
-        name,
-        kind,
+        name: name.to_string(),
+        kind: kind.to_string(),
         required,
-        default,
-        description,
+        default: property.get("default").cloned(),
+        values,
+        description: description.to_string(),
     }
 }
 
-fn stat(name: &'static str, data: &'static str, parameters: Vec<Parameter>, analytic: bool, description: &'static str) -> StatisticEntry {
+fn statistic(doc: &Value, name: &str, variant: &Value) -> StatisticEntry {
+    let (shape, analytic) = StatisticSpec::facts_of(name).expect("a registered statistic");
+    let required: Vec<&str> = variant["required"]
+        .as_array()
+        .map(|r| r.iter().filter_map(Value::as_str).collect())
+        .unwrap_or_default();
+    let parameters = variant["properties"]
+        .as_object()
+        .map(|p| {
+            p.iter()
+                .filter(|(k, _)| *k != "name")
+                .map(|(k, v)| parameter(doc, k, v, required.contains(&k.as_str())))
+                .collect()
+        })
+        .unwrap_or_default();
     StatisticEntry {
-        name,
-        data,
+        name: name.to_string(),
+        data: match shape {
+            Shape::Column => "one_column",
+            Shape::Table => "columns",
+        }
+        .to_string(),
         parameters,
-        studentized_standard_error: if analytic { "analytic" } else { "nested" },
-        description,
+        studentized_standard_error: if analytic { SeSource::Analytic } else { SeSource::Nested },
+        description: variant["description"].as_str().unwrap_or("").to_string(),
     }
 }
 
-pub const WARNING_CODES: &[&str] = &[
-    "small_sample",
-    "constant_data",
-    "extreme_quantile",
-    "few_distinct_replicates",
-    "large_bias",
-    "skewed_replicates",
-    "undefined_replicates",
-    "extreme_bca_adjustment",
-    "bca_without_acceleration",
-    "too_few_resamples",
-    "serial_correlation",
-    "studentized_degenerate",
-    "partial_result",
-    "auto_resample_limit",
-    "auto_time_limit",
-    "inexact_nested_studentized",
-];
+/// The parts of the catalogue that do not depend on the server's settings, read once.
+fn fixed() -> &'static (Vec<StatisticEntry>, Vec<SchemeEntry>) {
+    static FIXED: OnceLock<(Vec<StatisticEntry>, Vec<SchemeEntry>)> = OnceLock::new();
+    FIXED.get_or_init(|| {
+        let doc: Value = serde_json::from_str(&super::openapi::document_json()).expect("the document is JSON");
+        let statistics = variants(&doc, "StatisticSpec", "name")
+            .into_iter()
+            .map(|(n, v)| statistic(&doc, &n, v))
+            .collect();
+        let schemes = variants(&doc, "SchemeSpec", "kind")
+            .into_iter()
+            .map(|(kind, v)| SchemeEntry {
+                kind,
+                description: v["description"].as_str().unwrap_or("").to_string(),
+            })
+            .collect();
+        (statistics, schemes)
+    })
+}
 
 pub fn catalog(limits: LimitsEntry) -> CatalogResponse {
-    use serde_json::json;
-    let one = "one_column";
-    let cols = "columns";
+    let (statistics, schemes) = fixed().clone();
     CatalogResponse {
         version: env!("CARGO_PKG_VERSION"),
-        statistics: vec![
-            stat("mean", one, vec![], true, "arithmetic mean"),
-            stat("median", one, vec![], false, "median (Hyndman–Fan definition 7 at p = 0.5)"),
-            stat(
-                "quantile",
-                one,
-                vec![p("p", "number", true, None, "probability in [0, 1]")],
-                false,
-                "sample quantile, Hyndman–Fan definition 7 (numpy's linear)",
-            ),
-            stat(
-                "trimmed_mean",
-                one,
-                vec![p("trim", "number", false, Some(json!(0.1)), "share cut from each end, in [0, 0.5)")],
-                false,
-                "mean after cutting ⌊trim·n⌋ observations from each end",
-            ),
-            stat(
-                "variance",
-                one,
-                vec![p("ddof", "integer", false, Some(json!(0)), "0: divide by n (plug-in); 1: by n − 1")],
-                true,
-                "variance",
-            ),
-            stat(
-                "std_dev",
-                one,
-                vec![p("ddof", "integer", false, Some(json!(0)), "0: divide by n (plug-in); 1: by n − 1")],
-                true,
-                "standard deviation",
-            ),
-            stat(
-                "mad",
-                one,
-                vec![p("scale", "string", false, Some(json!("raw")), "\"raw\" or \"normal\" (× 1.4826)")],
-                false,
-                "median absolute deviation from the median",
-            ),
-            stat("iqr", one, vec![], false, "interquartile range Q(0.75) − Q(0.25)"),
-            stat("geometric_mean", one, vec![], true, "exp of the mean log; positive data"),
-            stat(
-                "coefficient_of_variation",
-                one,
-                vec![],
-                false,
-                "plug-in standard deviation over the mean",
-            ),
-            stat("proportion", one, vec![], true, "share of values equal to 1 in data of 0s and 1s"),
-            stat(
-                "ratio",
-                cols,
-                vec![
-                    p("numerator", "column", true, None, "column summed on top"),
-                    p("denominator", "column", true, None, "column summed below"),
-                ],
-                true,
-                "ratio of column sums",
-            ),
-            stat(
-                "correlation",
-                cols,
-                vec![
-                    p("x", "column", true, None, "first column"),
-                    p("y", "column", true, None, "second column"),
-                    p("kind", "string", false, Some(json!("pearson")), "\"pearson\" or \"spearman\""),
-                ],
-                false,
-                "correlation of two columns",
-            ),
-            stat(
-                "slope",
-                cols,
-                vec![p("x", "column", true, None, "regressor"), p("y", "column", true, None, "response")],
-                true,
-                "least-squares slope of y on x",
-            ),
-        ],
-        schemes: super::request::SCHEMES
+        statistics,
+        schemes,
+        methods: Method::ALL
             .iter()
-            .map(|(kind, available)| SchemeEntry {
-                kind,
-                available: *available,
-                description: match *kind {
-                    "iid" => "n rows drawn with replacement",
-                    "bayesian" => "Dirichlet(1, …, 1) weights on the rows (Rubin 1981)",
-                    "stratified" => "rows resampled within each stratum, sizes kept",
-                    "cluster" => "whole clusters resampled with replacement",
-                    "moving_block" => "overlapping blocks of consecutive rows",
-                    "circular_block" => "blocks that wrap around the end of the series",
-                    _ => "blocks of geometric length (Politis & Romano 1994)",
-                },
+            .map(|m| MethodEntry {
+                name: *m,
+                description: m.doc(),
+                source: m.source(),
             })
             .collect(),
-        methods: vec![
-            MethodEntry {
-                name: "percentile",
-                description: "replicate quantiles at α/2 and 1 − α/2",
-                source: "Efron (1981); Davison & Hinkley (1997) §5.3.1",
-            },
-            MethodEntry {
-                name: "basic",
-                description: "2θ̂ minus the replicate quantiles",
-                source: "Davison & Hinkley (1997) §5.2, eq. 5.6",
-            },
-            MethodEntry {
-                name: "normal",
-                description: "θ̂ − bias ± z·standard error",
-                source: "Davison & Hinkley (1997) §5.2, eq. 5.5",
-            },
-            MethodEntry {
-                name: "bca",
-                description: "bias-corrected and accelerated percentile interval",
-                source: "Efron (1987), JASA 82(397); Efron & Tibshirani (1993) ch. 14",
-            },
-            MethodEntry {
-                name: "studentized",
-                description: "bootstrap-t with analytic or nested standard errors",
-                source: "Davison & Hinkley (1997) §5.2.1; Efron & Tibshirani (1993) ch. 12",
-            },
-        ],
-        resample_modes: vec!["auto", "exact"],
-        include: vec!["histogram", "cdf", "replicates"],
-        warning_codes: WARNING_CODES.to_vec(),
+        resample_modes: ResampleMode::ALL.to_vec(),
+        include: Include::ALL.to_vec(),
+        warning_codes: WarningCode::ALL.to_vec(),
         limits,
     }
 }

@@ -8,313 +8,256 @@ use std::time::{Duration, Instant};
 use rand::Rng;
 use serde_json::Value;
 
-use super::problem::{escape_token, FieldError, Problem};
-use super::request::{self, Errors, IntervalParams, Limits, MAX_SEED};
+use super::data::DataForm;
+use super::decode::Errors;
+use super::problem::{FieldError, Problem};
+use super::request::{self, IntervalRequest, Params, Replay};
 use super::response::{find_null, IntervalResponse};
+use super::rules::Rule;
+use super::token::{self, TokenBody, TokenError};
+use crate::config::Limits;
 use crate::engine::data::Sample;
-use crate::engine::interval::Method;
-use crate::engine::jackknife;
-use crate::engine::montecarlo::AUTO_START;
-use crate::engine::run::{self, Include, Job, Resamples, RunError, Stop};
-use crate::engine::scheme::exact;
-use crate::engine::statistic::{DataLocation, DataProblem};
-use crate::token::{self, TokenBody, TokenError};
+use crate::engine::driver::{self, Prepared, RunError, Which};
+use crate::engine::executor::Budget;
+use crate::engine::job::Samples;
+use crate::engine::plan::ResampleCount;
+use crate::engine::rng::MAX_SEED;
+use crate::engine::scheme::SchemeError;
 
-/// What the interval route needs to know about the server.
-#[derive(Debug, Clone)]
-pub struct Settings {
-    pub limits: Limits,
-    /// The most row-draws (units × resamples × the statistic's relative cost) one job may take.
-    pub work_limit: f64,
-}
-
-/// Parse a body as JSON, accepting bare `NaN`/`Infinity` only so as to name them in a 422.
+/// Parse a body as a JSON object, accepting bare `NaN`/`Infinity` only so as to name them in a
+/// 422.
 pub fn parse_json(body: &[u8]) -> Result<Value, Problem> {
-    match serde_json::from_slice::<Value>(body) {
-        Ok(v) => Ok(v),
+    let value = match serde_json::from_slice::<Value>(body) {
+        Ok(v) => v,
         Err(e) => {
-            if let Ok(text) = std::str::from_utf8(body) {
-                if let Some(quoted) = request::quote_non_finite_literals(text) {
-                    if let Ok(v) = serde_json::from_str::<Value>(&quoted) {
-                        return Ok(v);
-                    }
+            let quoted = std::str::from_utf8(body).ok().and_then(quote_non_finite_literals);
+            match quoted.and_then(|q| serde_json::from_str::<Value>(&q).ok()) {
+                Some(v) => v,
+                // serde_json's message names a line and column and the kind of mistake, never
+                // the content, so it is safe to return and to log.
+                None => {
+                    return Err(Problem::malformed_json(format!(
+                        "the body is not valid JSON ({e}); send a JSON object such as {{\"data\": [1.5, 2.25, 3.0]}}"
+                    )))
                 }
             }
-            // serde_json's message names a line and column and the kind of mistake, never the
-            // content, so it is safe to return and to log.
-            Err(Problem::malformed_json(format!(
-                "the body is not valid JSON ({e}); send a JSON object such as {{\"data\": [1.5, 2.25, 3.0]}}"
-            )))
+        }
+    };
+    if !value.is_object() {
+        return Err(Problem::malformed_json(
+            "the body must be a JSON object such as {\"data\": [1.5, 2.25, 3.0]}",
+        ));
+    }
+    Ok(value)
+}
+
+/// Replace the bare tokens `NaN`, `Infinity` and `-Infinity` outside strings (which some JSON
+/// writers emit, though JSON has no such literals) by strings, so that validation can name the
+/// element instead of refusing the whole body as malformed.
+pub fn quote_non_finite_literals(text: &str) -> Option<String> {
+    let bytes = text.as_bytes();
+    let mut out = String::with_capacity(text.len() + 16);
+    let (mut i, mut last, mut in_string) = (0, 0, false);
+    while i < bytes.len() {
+        let c = bytes[i];
+        if in_string {
+            match c {
+                b'\\' => i += 2,
+                b'"' => {
+                    in_string = false;
+                    i += 1
+                }
+                _ => i += 1,
+            }
+            continue;
+        }
+        if c == b'"' {
+            in_string = true;
+            i += 1;
+            continue;
+        }
+        // Literals start with an ASCII byte, so `i` and `last` are always char boundaries.
+        match ["-Infinity", "Infinity", "NaN"]
+            .into_iter()
+            .find(|lit| bytes[i..].starts_with(lit.as_bytes()))
+        {
+            Some(lit) => {
+                out.push_str(&text[last..i]);
+                out.push_str(&format!("\"{lit}\""));
+                i += lit.len();
+                last = i;
+            }
+            None => i += 1,
         }
     }
-}
-
-/// Map the engine's data problems to pointers into the request.
-pub fn data_problems(sample: &Sample, problems: Vec<DataProblem>, data_ptr: &str, statistic_ptr: &str) -> Problem {
-    let errors = problems
-        .into_iter()
-        .map(|p| {
-            let pointer = match p.location {
-                DataLocation::Whole => data_ptr.to_string(),
-                DataLocation::Value(i) => match sample {
-                    Sample::Aggregated { .. } => format!("{data_ptr}/values/{i}"),
-                    _ => format!("{data_ptr}/{i}"),
-                },
-                DataLocation::Column(name) => format!("{data_ptr}/columns/{}", escape_token(&name)),
-                DataLocation::Parameter(param) => format!("{statistic_ptr}/{param}"),
-            };
-            FieldError::new(pointer, p.message)
-        })
-        .collect();
-    Problem::invalid(errors)
-}
-
-fn include_names(inc: Include) -> Vec<String> {
-    let mut v = Vec::new();
-    if inc.histogram {
-        v.push("histogram".to_string());
+    if last == 0 {
+        return None;
     }
-    if inc.cdf {
-        v.push("cdf".to_string());
-    }
-    if inc.replicates {
-        v.push("replicates".to_string());
-    }
-    v
-}
-
-/// Rebuild the parameters recorded in a token. They go through the same validation as a
-/// request's (a token is only base64 of JSON, so an edited one must not get past the limits).
-fn params_from_token(body: &TokenBody, limits: &Limits) -> Result<(IntervalParams, Option<Stop>), Problem> {
-    let damaged = || {
-        Problem::invalid(vec![FieldError::new(
-            "/token",
-            "this token is damaged or outside this server's limits; send the parameters instead",
-        )])
-    };
-    let resamples = match body.mode.as_str() {
-        "exact" => Value::from("exact"),
-        "fixed" | "auto" => Value::from(body.resamples),
-        _ => return Err(damaged()),
-    };
-    let fields = serde_json::json!({
-        "statistic": body.statistic,
-        "scheme": body.scheme,
-        "resamples": resamples,
-        "seed": body.seed,
-        "levels": body.levels,
-        "methods": body.methods,
-        "include": body.include,
-        "inner_resamples": body.inner_resamples,
-    });
-    let Value::Object(obj) = fields else {
-        unreachable!("built as an object")
-    };
-    let mut errs = Errors::default();
-    let params = request::parse_params(&obj, limits, &mut errs)
-        .filter(|_| errs.is_empty())
-        .ok_or_else(damaged)?;
-    let stop = Stop::from_name(&body.stop).ok_or_else(damaged)?;
-    Ok((params, if body.mode == "exact" { None } else { Some(stop) }))
-}
-
-/// A validated interval job with its estimated work, ready to run.
-#[derive(Debug, Clone)]
-pub struct PreparedJob {
-    pub job: Job,
-    pub sample_digest: [u8; 32],
-    pub params: IntervalParams,
-    pub mode: String,
-    pub target: Option<f64>,
-    pub time_limit_ms: u64,
-    /// Estimated row-draws (units × resamples × relative cost × nested factor).
-    pub work: f64,
+    out.push_str(&text[last..]);
+    Some(out)
 }
 
 /// Compute an interval response from a request body.
 pub fn compute(
     body: &[u8],
-    settings: &Settings,
+    limits: &Limits,
     cancel: Arc<AtomicBool>,
     started: Instant,
     replicate_cap: Option<u64>,
 ) -> Result<Value, Problem> {
     let json = parse_json(body)?;
-    if !json.is_object() {
-        return Err(Problem::malformed_json(
-            "the body must be a JSON object such as {\"data\": [1.5, 2.25, 3.0]}",
-        ));
-    }
-    let mut prepared = prepare(&json, settings, started, None)?;
-    prepared.job.replicate_cap = replicate_cap;
-    execute(prepared, cancel, started)
+    let job = prepare(&json, &[], limits, started, None)?;
+    execute(job, cancel, replicate_cap, started)
 }
 
-/// Validate a request (or replay its token), estimate its work and build the engine job; every
-/// refusal here happens before any resampling. `deadline_cap` bounds the job's own deadline
-/// (a batch's time limit).
-pub fn prepare(json: &Value, settings: &Settings, started: Instant, deadline_cap: Option<Instant>) -> Result<PreparedJob, Problem> {
-    let req = request::parse_interval(json, &settings.limits).map_err(Problem::invalid)?;
+/// An interval job that passed every check, ready to run.
+pub struct PreparedJob {
+    prepared: Prepared,
+    params: Params,
+    digest: [u8; 32],
+    deadline: Instant,
+    /// The time limit in force, for the time-limit problem.
+    time_limit_ms: u64,
+}
 
-    let (params, recorded_stop, mode, target) = match &req.token {
+impl PreparedJob {
+    /// The estimated work, in row-draws.
+    pub fn work(&self) -> f64 {
+        self.prepared.work()
+    }
+}
+
+/// A token's parameters, once it proved to belong to this data and to be within this server's
+/// limits.
+fn replayed(t: &str, sample: &Sample, limits: &Limits) -> Result<(Params, u64, Replay), Problem> {
+    let refuse = |message: String| Problem::invalid(vec![FieldError::by_rule("/token", Rule::TokenValid, message)]);
+    let body: TokenBody = token::decode(t).map_err(|e| match e {
+        TokenError::Malformed => refuse(format!(
+            "is not a whole token issued by this service (it starts with \"{}\"); copy it whole from an earlier response",
+            token::PREFIX
+        )),
+        TokenError::Version { format, engine } => refuse(format!(
+            "was issued by format {format}, engine {engine}; this server (format {}, engine {}) cannot promise the same bits, so send the parameters instead",
+            token::FORMAT_VERSION,
+            token::ENGINE_VERSION
+        )),
+    })?;
+    if body.data != [token::hex(&sample.digest())] {
+        return Err(Problem::data_mismatch());
+    }
+    // A token is only base64 of JSON: an edited one is held to the same limits as a request
+    // (its parameters' own ranges were checked as they were read).
+    let drawn_ok = (ResampleCount::MIN..=limits.max_resamples).contains(&body.drawn);
+    if !request::check_params(&body.params, limits).is_empty() || body.seed > MAX_SEED || !drawn_ok {
+        return Err(refuse(
+            "this token is outside this server's limits; send the parameters instead".into(),
+        ));
+    }
+    let replay = Replay {
+        drawn: body.drawn,
+        stop: body.stop,
+    };
+    Ok((body.params, body.seed, replay))
+}
+
+/// Decode a request body, check it against every rule, and lay its job out; every refusal
+/// happens here, before any resampling. `also` lists fields allowed besides the request's own
+/// (a batch job's `kind`); `deadline_cap` bounds the job's deadline (a batch's).
+pub fn prepare(
+    json: &Value,
+    also: &[&str],
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<PreparedJob, Problem> {
+    let raw = json.as_object().expect("an object");
+    let mut errs = Errors::default();
+    let req = IntervalRequest::decode(raw, "", also, &mut errs);
+    if let Some(r) = &req {
+        r.check(raw, limits, &mut errs);
+    }
+    let req = match req {
+        Some(r) if errs.is_empty() => r,
+        _ => return Err(Problem::invalid(errs.0)),
+    };
+    let sample = req.data.0.clone();
+    let (params, seed, replay) = match &req.token {
         Some(t) => {
-            let body = token::decode(t).map_err(|e| match e {
-                TokenError::Malformed => Problem::invalid(vec![FieldError::new("/token", "is not a token issued by this service (it starts with \"bs1.\"); copy it whole from an earlier response")]),
-                TokenError::Version { format, engine, generator } => Problem::invalid(vec![FieldError::new(
-                    "/token",
-                    format!("was issued by format {format}, engine {engine}, generator {generator}; this server (format {}, engine {}) cannot promise the same bits, so send the parameters instead", token::FORMAT_VERSION, token::ENGINE_VERSION),
-                )]),
-            })?;
-            if body.data != token::hex(&req.sample.digest()) {
-                return Err(Problem::data_mismatch());
-            }
-            let (params, stop) = params_from_token(&body, &settings.limits)?;
-            (params, stop, body.mode.clone(), body.target_mc_error)
+            let (p, s, r) = replayed(t, &sample, limits)?;
+            (p, s, Some(r))
         }
-        None => {
-            let p = req.params.clone().expect("parameters without a token");
-            let (mode, target) = match p.resamples {
-                Resamples::Fixed(_) => ("fixed", None),
-                Resamples::Auto { target } => ("auto", Some(target)),
-                Resamples::Exact => ("exact", None),
-            };
-            (p, None, mode.to_string(), target)
-        }
+        None => (
+            req.params(),
+            req.seed.map_or_else(|| rand::rng().random_range(0..=MAX_SEED), |s| s.get()),
+            None,
+        ),
     };
-    let seed = params.seed.unwrap_or_else(|| rand::rng().random_range(0..=MAX_SEED));
-
-    // Work estimate, before any work: units × resamples × relative cost, times the nested
-    // bootstrap's inner size when studentized intervals need one.
-    let units = req.sample.units() as f64;
-    let nested = params.methods.contains(&Method::Studentized) && !params.statistic.has_analytic_se();
-    let per_resample = units * params.statistic.relative_cost() * if nested { 1.0 + params.inner_resamples as f64 } else { 1.0 };
-    let mut max_resamples = settings.limits.max_resamples;
-    let mut work;
-    match params.resamples {
-        Resamples::Fixed(b) => {
-            work = per_resample * b as f64;
-            if work > settings.work_limit {
-                return Err(Problem::work_limit(work, settings.work_limit));
-            }
-        }
-        Resamples::Exact => {
-            let count = exact::count(req.sample.n(), req.sample.units_with_weight());
-            match count {
-                Some(c) if c <= settings.limits.max_resamples => {
-                    work = per_resample * c as f64;
-                    if work > settings.work_limit {
-                        return Err(Problem::work_limit(work, settings.work_limit));
-                    }
-                }
-                _ => {
-                    return Err(Problem::invalid(vec![FieldError::new(
-                        "/resamples",
-                        format!(
-                            "\"exact\" would enumerate {} distinct resamples, above this server's limit of {}; it suits samples of up to about 10 observations. Give a number of resamples instead",
-                            count.map_or("more than 1.8e19".to_string(), |c| c.to_string()),
-                            settings.limits.max_resamples
-                        ),
-                    )]))
-                }
-            }
-        }
-        Resamples::Auto { .. } => {
-            let affordable = (settings.work_limit / per_resample).floor() as u64;
-            if affordable < AUTO_START {
-                return Err(Problem::work_limit(per_resample * AUTO_START as f64, settings.work_limit));
-            }
-            max_resamples = max_resamples.min(affordable);
-            work = per_resample * max_resamples as f64;
-        }
-    }
-
-    // The limit that applies: the job's own, or what is left of its batch's.
-    let effective_ms = deadline_cap.map_or(req.time_limit_ms, |cap| {
-        req.time_limit_ms.min(cap.saturating_duration_since(started).as_millis() as u64)
-    });
-
-    // BCa's jackknife runs once per job, before the resamples.
-    if params.methods.contains(&Method::Bca) {
-        let raw = !matches!(req.sample, Sample::Aggregated { .. });
-        let units = req.sample.units_with_weight();
-        work += params.statistic.relative_cost() * jackknife::cost_in_units(params.statistic.has_closed_jackknife(), units, raw);
-        if work > settings.work_limit {
-            return Err(Problem::work_limit(work, settings.work_limit));
-        }
-    }
-
-    let job = Job {
-        sample: req.sample.clone(),
-        statistic: params.statistic.clone(),
-        resamples: params.resamples,
-        seed,
-        levels: params.levels.clone(),
-        methods: params.methods.clone(),
-        scheme: params.scheme,
-        include: params.include,
-        inner_resamples: params.inner_resamples,
-        max_resamples,
-        deadline: Some({
-            let own = started + Duration::from_millis(req.time_limit_ms);
-            deadline_cap.map_or(own, |cap| cap.min(own))
-        }),
-        on_time_limit: req.on_time_limit,
-        cancel: None,
-        recorded_stop,
-        replicate_cap: None,
-    };
+    let own_ms = req
+        .time_limit_ms
+        .map_or(limits.default_time_limit_ms, |t| t.get())
+        .min(limits.max_time_limit_ms);
+    let own = started + Duration::from_millis(own_ms);
+    let deadline = deadline_cap.map_or(own, |cap| cap.min(own));
+    let digest = sample.digest();
+    let job = request::job(&params, Samples::One(sample), seed, req.on_time_limit, limits, replay);
+    let form = DataForm::of(&req.data.0);
+    let prepared = driver::prepare(job).map_err(|e| refusal(e, own_ms, &|_| form))?;
     Ok(PreparedJob {
-        sample_digest: req.sample.digest(),
-        job,
+        prepared,
         params,
-        mode,
-        target,
-        time_limit_ms: effective_ms,
-        work,
+        digest,
+        deadline,
+        time_limit_ms: deadline.saturating_duration_since(started).as_millis() as u64,
     })
 }
 
-/// Run a prepared job and build its response JSON.
-pub fn execute(prepared: PreparedJob, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
-    let PreparedJob {
-        mut job,
-        sample_digest,
-        params,
-        mode,
-        target,
-        time_limit_ms,
-        ..
-    } = prepared;
-    job.cancel = Some(cancel);
-    let outcome = run::run(&job).map_err(|e| match e {
-        RunError::Data(problems) => data_problems(&job.sample, problems, "/data", "/statistic"),
+/// The problem document of an engine refusal; `form` tells the form each sample was sent in.
+pub fn refusal(e: RunError, time_limit_ms: u64, form: &dyn Fn(Which) -> DataForm) -> Problem {
+    let invalid = |pointer: &str, rule: Rule, message: String| Problem::invalid(vec![FieldError::by_rule(pointer, rule, message)]);
+    match e {
+        RunError::Data { which, problems } => {
+            let data_at = match which {
+                Which::Only => "/data",
+                Which::Baseline => "/baseline",
+                Which::Candidate => "/candidate",
+            };
+            let mut errs = Errors::default();
+            super::data::report(form(which), problems, data_at, "/statistic", &mut errs);
+            Problem::invalid(errs.0)
+        }
+        RunError::Scheme(e @ SchemeError::TooManyToEnumerate { .. }) => invalid(
+            "/resamples",
+            Rule::ExactTooMany,
+            format!("\"exact\": {e}; it suits samples of up to about 10 observations. Give a number of resamples instead"),
+        ),
+        RunError::Scheme(e) => invalid("/resamples", Rule::ExactNeedsIid, format!("\"exact\": {e}; give a number of resamples")),
+        RunError::WorkLimit { needed, limit } => Problem::work_limit(needed, limit),
         RunError::TimeLimit { done, requested } => Problem::time_limit(done, requested, time_limit_ms),
         RunError::Cancelled => Problem::cancelled(),
-        RunError::ExactTooLarge { count, limit } => Problem::invalid(vec![FieldError::new(
-            "/resamples",
-            format!("\"exact\" would enumerate {count:?} resamples, above the limit of {limit}"),
-        )]),
-        RunError::NoDefinedReplicates => Problem::invalid(vec![FieldError::new(
+        RunError::NoDefinedReplicates => invalid(
             "/statistic",
-            "the statistic is undefined on every resample of this data (for example a correlation where resamples repeat one row); choose another statistic or send more varied data",
-        )]),
-    })?;
+            Rule::StatisticDomain,
+            "the statistic is undefined on every resample of this data (for example a correlation where resamples repeat one row); choose another statistic or send more varied data".into(),
+        ),
+    }
+}
 
-    let statistic_json = request::statistic_json(&params.statistic);
-    let scheme_json = request::scheme_json(params.scheme);
-    let mut tb = TokenBody::new_for(job.seed, &sample_digest);
-    tb.mode = mode;
-    tb.resamples = outcome.resamples;
-    tb.stop = outcome.stop.name().to_string();
-    tb.target_mc_error = target;
-    tb.statistic = statistic_json.clone();
-    tb.scheme = scheme_json.clone();
-    tb.methods = params.methods.iter().map(|m| m.name().to_string()).collect();
-    tb.levels = params.levels.clone();
-    tb.include = include_names(params.include);
-    tb.inner_resamples = params.inner_resamples;
-    let elapsed_ms = (started.elapsed().as_secs_f64() * 1e3 * 1000.0).round() / 1000.0;
-    let resp = IntervalResponse::from_outcome(outcome, statistic_json, scheme_json, job.seed, tb.encode(), elapsed_ms);
+/// Run a prepared job and build its response JSON.
+pub fn execute(job: PreparedJob, cancel: Arc<AtomicBool>, replicate_cap: Option<u64>, started: Instant) -> Result<Value, Problem> {
+    let budget = Budget {
+        deadline: Some(job.deadline),
+        cancel: Some(cancel),
+        replicate_cap,
+    };
+    // Data problems were all found in `prepare`; what running can refuse needs no sample.
+    let outcome = job
+        .prepared
+        .run(&budget)
+        .map_err(|e| refusal(e, job.time_limit_ms, &|_| DataForm::Column))?;
+    let seed = job.prepared.job.seed;
+    let token = TokenBody::new(seed, outcome.resamples, outcome.stop, job.params.clone(), &[job.digest]).encode();
+    let elapsed_ms = (started.elapsed().as_secs_f64() * 1e6).round() / 1e3;
+    let resp = IntervalResponse::from_outcome(outcome, &job.params, seed, token, elapsed_ms);
     let value = serde_json::to_value(&resp).map_err(|e| Problem::internal(format!("could not encode the result: {e}")))?;
     let mut at = String::new();
     if find_null(&value, &mut at) {

@@ -7,12 +7,17 @@
 
 pub mod batch;
 pub mod catalog;
+pub mod data;
+pub mod decode;
+pub mod fields;
 pub mod interval;
 pub mod openapi;
 pub mod pool;
 pub mod problem;
 pub mod request;
 pub mod response;
+pub mod rules;
+pub mod token;
 
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::Arc;
@@ -31,19 +36,23 @@ use subtle::ConstantTimeEq;
 use tower_http::compression::CompressionLayer;
 use tower_http::cors::{AllowOrigin, CorsLayer};
 
-use self::interval::Settings;
+use serde::Serialize;
+use utoipa::ToSchema;
+
 use self::pool::ComputePool;
 use self::problem::Problem;
+use crate::config::Limits;
+use crate::engine::data::MAX_MAGNITUDE;
+use crate::engine::rng::MAX_SEED;
 use crate::telemetry::{Metrics, Route, RouteStatus};
 
 /// Shared state of every handler.
 #[derive(Clone)]
 pub struct AppState {
     pub pool: Arc<ComputePool>,
-    pub settings: Arc<Settings>,
+    pub limits: Arc<Limits>,
     pub metrics: Arc<Metrics>,
     pub max_body_bytes: usize,
-    pub max_batch_jobs: usize,
     /// SHA-256 of every accepted API key; empty: no keys needed.
     pub key_digests: Arc<Vec<[u8; 32]>>,
     pub test_hooks: bool,
@@ -56,6 +65,22 @@ pub struct JobFacts {
     pub resamples: u64,
     pub statistic: String,
     pub jobs: usize,
+}
+
+crate::wire_enum! {
+    /// The answer of the health and readiness routes.
+    pub enum HealthStatus {
+        /// From `/healthz`: the process serves.
+        Ok = "ok",
+        /// From `/readyz`: the pool accepts work.
+        Ready = "ready",
+    }
+}
+
+/// Liveness or readiness.
+#[derive(Debug, Clone, Serialize, ToSchema)]
+pub struct Health {
+    pub status: HealthStatus,
 }
 
 /// Header that makes a job panic when test hooks are on (tests of panic isolation only).
@@ -102,13 +127,45 @@ pub fn router(state: AppState, cors_origins: &[String]) -> Router {
     app.with_state(state)
 }
 
-async fn healthz() -> Json<serde_json::Value> {
-    Json(serde_json::json!({ "status": "ok" }))
+/// Liveness
+///
+/// 200 while the process serves.
+#[utoipa::path(
+    get,
+    path = "/healthz",
+    operation_id = "healthz",
+    tag = "operations",
+    responses(
+        (status = 200, description = "The process serves.", body = Health, content_type = "application/json", example = json!({"status": "ok"})),
+    ),
+)]
+pub(crate) async fn healthz() -> Json<Health> {
+    Json(Health { status: HealthStatus::Ok })
 }
 
-async fn readyz(State(app): State<AppState>) -> Response {
+/// Readiness
+///
+/// 200 while the compute pool accepts work; 503 while it sheds load (and for a second after it
+/// last shed a job) or while the server drains for shutdown.
+#[utoipa::path(
+    get,
+    path = "/readyz",
+    operation_id = "readyz",
+    tag = "operations",
+    responses(
+        (status = 200, description = "The pool accepts work.", body = Health, content_type = "application/json", example = json!({"status": "ready"})),
+        (status = 503, response = openapi::NotReady),
+    ),
+)]
+pub(crate) async fn readyz(State(app): State<AppState>) -> Response {
     if app.pool.ready() {
-        (StatusCode::OK, Json(serde_json::json!({ "status": "ready" }))).into_response()
+        (
+            StatusCode::OK,
+            Json(Health {
+                status: HealthStatus::Ready,
+            }),
+        )
+            .into_response()
     } else {
         let mut p = Problem::new(
             StatusCode::SERVICE_UNAVAILABLE,
@@ -121,7 +178,20 @@ async fn readyz(State(app): State<AppState>) -> Response {
     }
 }
 
-async fn metrics_route(State(app): State<AppState>) -> Response {
+/// Prometheus metrics
+///
+/// The Prometheus text exposition (format 0.0.4): requests by route and status, latency,
+/// replicates drawn, jobs shed, timed out, cancelled and panicked, queue depth and running jobs.
+#[utoipa::path(
+    get,
+    path = "/metrics",
+    operation_id = "metrics",
+    tag = "operations",
+    responses(
+        (status = 200, description = "The metrics.", body = String, content_type = "text/plain; version=0.0.4; charset=utf-8"),
+    ),
+)]
+pub(crate) async fn metrics_route(State(app): State<AppState>) -> Response {
     app.metrics.queue_depth.set(app.pool.queue_depth() as i64);
     app.metrics.jobs_running.set(app.pool.running() as i64);
     let mut resp = app.metrics.encode().into_response();
@@ -132,27 +202,54 @@ async fn metrics_route(State(app): State<AppState>) -> Response {
     resp
 }
 
-async fn openapi_route() -> Response {
+/// This document
+///
+/// The OpenAPI 3.1 document of this API, identical to `openapi/openapi.json` in the repository.
+#[utoipa::path(
+    get,
+    path = "/openapi.json",
+    operation_id = "openapi",
+    tag = "discovery",
+    responses(
+        (status = 200, description = "The OpenAPI document.", body = Object, content_type = "application/json"),
+    ),
+)]
+pub(crate) async fn openapi_route() -> Response {
     let mut resp = openapi::document_json().into_response();
     resp.headers_mut()
         .insert(header::CONTENT_TYPE, HeaderValue::from_static("application/json"));
     resp
 }
 
-async fn catalog_route(State(app): State<AppState>) -> Json<catalog::CatalogResponse> {
-    let l = &app.settings.limits;
+/// What this server computes, and its limits
+///
+/// Every statistic with its parameters, every resampling scheme, every interval method, the
+/// resample modes, the inclusions, the stable warning codes, and this server's limits.
+#[utoipa::path(
+    get,
+    path = "/v1/catalog",
+    operation_id = "catalog",
+    tag = "discovery",
+    responses(
+        (status = 200, description = "The catalogue.", body = catalog::CatalogResponse, content_type = "application/json"),
+        (status = 401, response = openapi::Unauthorized),
+    ),
+    security(("bearer" = []), ()),
+)]
+pub(crate) async fn catalog_route(State(app): State<AppState>) -> Json<catalog::CatalogResponse> {
+    let l = &app.limits;
     Json(catalog::catalog(catalog::LimitsEntry {
         max_body_bytes: app.max_body_bytes,
         max_rows: l.max_rows,
         max_resamples: l.max_resamples,
-        work_limit: app.settings.work_limit,
+        work_limit: l.work_limit,
         default_time_limit_ms: l.default_time_limit_ms,
         max_time_limit_ms: l.max_time_limit_ms,
-        max_batch_jobs: app.max_batch_jobs,
+        max_batch_jobs: l.max_batch_jobs,
         threads: app.pool.threads(),
         queue: app.pool.queue_capacity(),
-        max_seed: request::MAX_SEED,
-        max_magnitude: request::MAX_MAGNITUDE,
+        max_seed: MAX_SEED,
+        max_magnitude: MAX_MAGNITUDE,
     }))
 }
 
@@ -304,7 +401,7 @@ async fn compute_route(
     app: AppState,
     headers: HeaderMap,
     body: Body,
-    work: impl FnOnce(axum::body::Bytes, Arc<Settings>, Arc<AtomicBool>, Instant) -> Result<serde_json::Value, Problem> + Send + 'static,
+    work: impl FnOnce(axum::body::Bytes, Arc<Limits>, Arc<AtomicBool>, Instant) -> Result<serde_json::Value, Problem> + Send + 'static,
 ) -> Response {
     let started = Instant::now();
     let panic_hook = app.test_hooks && headers.contains_key(TEST_PANIC_HEADER);
@@ -318,13 +415,13 @@ async fn compute_route(
         let bytes = read_body(body, app.max_body_bytes).await?;
         let cancel = Arc::new(AtomicBool::new(false));
         let _guard = CancelOnDrop(cancel.clone());
-        let settings = app.settings.clone();
+        let limits = app.limits.clone();
         app.pool
             .run(move || {
                 if panic_hook {
                     panic!("test hook: a job that panics");
                 }
-                work(bytes, settings, cancel, started)
+                work(bytes, limits, cancel, started)
             })
             .await
     }
@@ -372,21 +469,80 @@ fn facts_of(v: &serde_json::Value) -> JobFacts {
     }
 }
 
-async fn interval_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
+/// One bootstrap interval
+///
+/// One sample (or one set of columns read together as rows), one statistic: the estimate, its
+/// standard error and bias, the intervals of every requested method at every requested level,
+/// each endpoint with its Monte Carlo error, diagnostics, and a replay token. With `token`
+/// instead of the parameters, the same data gives the identical response again.
+#[utoipa::path(
+    post,
+    path = "/v1/interval",
+    operation_id = "interval",
+    tag = "intervals",
+    request_body(
+        content = request::IntervalRequest,
+        content_type = "application/json",
+        description = "The sample, the statistic and how to resample; only `data` is required.",
+        example = json!(openapi::interval_request_example()),
+    ),
+    responses(
+        (status = 200, description = "The result.", body = response::IntervalResponse, content_type = "application/json", example = json!(openapi::interval_response_example())),
+        (status = 400, response = openapi::MalformedJson),
+        (status = 401, response = openapi::Unauthorized),
+        (status = 409, response = openapi::DataMismatch),
+        (status = 413, response = openapi::BodyTooLarge),
+        (status = 415, response = openapi::UnsupportedMediaType),
+        (status = 422, response = openapi::Unprocessable),
+        (status = 500, response = openapi::Internal),
+        (status = 503, response = openapi::Unavailable),
+    ),
+    security(("bearer" = []), ()),
+)]
+pub(crate) async fn interval_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
     let cap = headers
         .get(TEST_STOP_AFTER_HEADER)
         .filter(|_| app.test_hooks)
         .and_then(|v| v.to_str().ok()?.parse().ok());
-    compute_route(app, headers, body, move |bytes, settings, cancel, started| {
-        interval::compute(&bytes, &settings, cancel, started, cap)
+    compute_route(app, headers, body, move |bytes, limits, cancel, started| {
+        interval::compute(&bytes, &limits, cancel, started, cap)
     })
     .await
 }
 
-async fn batch_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
-    let max_jobs = app.max_batch_jobs;
-    compute_route(app, headers, body, move |bytes, settings, cancel, started| {
-        batch::compute(&bytes, &settings, max_jobs, cancel, started)
+/// Many jobs in one request
+///
+/// Many jobs in one request, checked together and run in order on one compute slot, sharing
+/// the request's time limit; the estimated work of all of them together must be within the
+/// server's work limit. One `ok` result or one `error` problem per job, in the order of the
+/// jobs: a bad job does not sink the batch, and its problem's pointers start with
+/// `/jobs/<index>` so that they point into the batch request.
+#[utoipa::path(
+    post,
+    path = "/v1/batch",
+    operation_id = "batch",
+    tag = "intervals",
+    request_body(
+        content = batch::BatchRequest,
+        content_type = "application/json",
+        description = "The jobs, and how their results hold together as a family.",
+        example = json!(openapi::batch_request_example()),
+    ),
+    responses(
+        (status = 200, description = "One result or one problem per job, in order.", body = batch::BatchResponse, content_type = "application/json", example = json!(openapi::batch_response_example())),
+        (status = 400, response = openapi::MalformedJson),
+        (status = 401, response = openapi::Unauthorized),
+        (status = 413, response = openapi::BodyTooLarge),
+        (status = 415, response = openapi::UnsupportedMediaType),
+        (status = 422, response = openapi::Unprocessable),
+        (status = 500, response = openapi::Internal),
+        (status = 503, response = openapi::Overloaded),
+    ),
+    security(("bearer" = []), ()),
+)]
+pub(crate) async fn batch_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
+    compute_route(app, headers, body, move |bytes, limits, cancel, started| {
+        batch::compute(&bytes, &limits, cancel, started)
     })
     .await
 }

@@ -5,6 +5,8 @@ use axum::response::{IntoResponse, Response};
 use serde::Serialize;
 use utoipa::ToSchema;
 
+use super::rules::Rule;
+
 /// One invalid field: a JSON Pointer (RFC 6901) into the request and what is wrong with it.
 #[derive(Debug, Clone, PartialEq, Serialize, ToSchema)]
 #[schema(example = json!({"pointer": "/levels/0", "message": "must be a confidence level strictly between 0 and 1 (0.95, not 95); got 95"}))]
@@ -14,6 +16,11 @@ pub struct FieldError {
     pub pointer: String,
     /// What is wrong and how to fix it.
     pub message: String,
+    /// The rule beyond the schema that refused the field, when one did (absent when the field
+    /// breaks the schema itself).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    #[schema(nullable = false)]
+    pub rule: Option<Rule>,
 }
 
 impl FieldError {
@@ -21,6 +28,15 @@ impl FieldError {
         FieldError {
             pointer: pointer.into(),
             message: message.into(),
+            rule: None,
+        }
+    }
+
+    /// A field refused by a rule beyond the schema.
+    pub fn by_rule(pointer: impl Into<String>, rule: Rule, message: impl Into<String>) -> Self {
+        FieldError {
+            rule: Some(rule),
+            ..FieldError::new(pointer, message)
         }
     }
 }

@@ -4,15 +4,22 @@ use serde::Serialize;
 use serde_json::Value;
 use utoipa::ToSchema;
 
+use super::request::Params;
+use crate::engine::diagnostics::WarningCode;
+use crate::engine::driver::Outcome;
+use crate::engine::extras::{Cdf, Histogram};
+use crate::engine::interval::Method;
 use crate::engine::jackknife::JackknifeKind;
-use crate::engine::run::{Cdf, Histogram, Outcome};
+use crate::engine::job::Stop;
+use crate::engine::kernel::SeSource;
+use crate::engine::scheme::SchemeSpec;
+use crate::engine::statistic::StatisticSpec;
 
 /// One interval: a method at a level.
 #[derive(Debug, Clone, Serialize, ToSchema)]
 #[schema(as = Interval)]
 pub struct IntervalJson {
-    #[schema(value_type = crate::api::openapi::Method)]
-    pub method: &'static str,
+    pub method: Method,
     #[schema(exclusive_minimum = 0, exclusive_maximum = 1)]
     pub level: f64,
     pub lower: f64,
@@ -34,8 +41,7 @@ pub struct IntervalJson {
 #[derive(Debug, Clone, Serialize, ToSchema)]
 #[schema(as = Warning)]
 pub struct WarningJson {
-    #[schema(value_type = crate::api::openapi::WarningCode)]
-    pub code: &'static str,
+    pub code: WarningCode,
     /// What the warning means and what to do, for a person.
     pub message: String,
 }
@@ -44,8 +50,7 @@ pub struct WarningJson {
 #[derive(Debug, Clone, Serialize, ToSchema)]
 #[schema(as = Jackknife)]
 pub struct JackknifeJson {
-    #[schema(value_type = crate::api::openapi::JackknifeKind, inline)]
-    pub kind: &'static str,
+    pub kind: JackknifeKind,
     /// The number of groups of a grouped jackknife.
     #[serde(skip_serializing_if = "Option::is_none")]
     #[schema(nullable = false)]
@@ -71,15 +76,14 @@ pub struct DiagnosticsJson {
     pub jackknife: Option<JackknifeJson>,
     /// With studentized intervals: how each resample's standard error was had, "analytic" or "nested".
     #[serde(skip_serializing_if = "Option::is_none")]
-    #[schema(nullable = false, value_type = Option<crate::api::openapi::StandardErrorSource>, inline)]
-    pub studentized_standard_error: Option<&'static str>,
+    #[schema(nullable = false)]
+    pub studentized_standard_error: Option<SeSource>,
     /// With nested studentized intervals: the inner bootstrap size.
     #[serde(skip_serializing_if = "Option::is_none")]
     #[schema(nullable = false)]
-    pub inner_resamples: Option<usize>,
-    /// Why drawing stopped: "done", "time_limit", "auto_target", "auto_limit", "auto_time".
-    #[schema(value_type = crate::api::openapi::Stop, inline)]
-    pub stop: &'static str,
+    pub inner_resamples: Option<u64>,
+    /// Why drawing stopped.
+    pub stop: Stop,
     pub warnings: Vec<WarningJson>,
 }
 
@@ -126,11 +130,9 @@ pub struct IntervalResponse {
     /// One per method and level.
     pub intervals: Vec<IntervalJson>,
     /// The statistic, normalised: its name and every parameter.
-    #[schema(value_type = crate::api::openapi::StatisticObject)]
-    pub statistic: Value,
-    /// The scheme, with `"auto"` block lengths resolved.
-    #[schema(value_type = crate::api::openapi::Scheme)]
-    pub scheme: Value,
+    pub statistic: StatisticSpec,
+    /// The scheme.
+    pub scheme: SchemeSpec,
     /// The seed used: the request's, or the one the server drew.
     #[schema(maximum = 9007199254740991_u64)]
     pub seed: u64,
@@ -154,22 +156,56 @@ pub struct IntervalResponse {
     #[schema(nullable = false)]
     pub replicate_probabilities: Option<Vec<f64>>,
     /// Replays this response: send it with the same data instead of the parameters.
-    #[schema(pattern = "^bs1\\.")]
+    #[schema(pattern = "^rt2\\.")]
     pub token: String,
     /// Milliseconds from receiving the request to the response.
     #[schema(minimum = 0)]
     pub elapsed_ms: f64,
 }
 
+impl IntervalJson {
+    fn of(iv: &crate::engine::summary::IntervalResult) -> Self {
+        IntervalJson {
+            method: iv.method,
+            level: iv.level,
+            lower: iv.endpoints.lower,
+            upper: iv.endpoints.upper,
+            lower_mc_error: iv.endpoints.lower_mc_error,
+            upper_mc_error: iv.endpoints.upper_mc_error,
+            quantile_levels: iv.endpoints.quantile_levels.map(|(a, b)| [a, b]),
+        }
+    }
+}
+
+impl DiagnosticsJson {
+    fn of(o: &Outcome) -> Self {
+        let d = &o.diagnostics;
+        DiagnosticsJson {
+            z0: d.z0,
+            acceleration: d.acceleration,
+            replicate_skewness: d.replicate_skewness,
+            distinct_replicate_values: d.distinct_replicate_values,
+            undefined_replicates: d.undefined_replicates,
+            jackknife: d.jackknife.map(|(kind, groups)| JackknifeJson { kind, groups }),
+            studentized_standard_error: d.studentized_standard_error,
+            inner_resamples: d.inner_resamples,
+            stop: o.stop,
+            warnings: d
+                .warnings
+                .iter()
+                .map(|w| WarningJson {
+                    code: w.code,
+                    message: w.message.clone(),
+                })
+                .collect(),
+        }
+    }
+}
+
 impl IntervalResponse {
-    pub fn from_outcome(o: Outcome, statistic: Value, scheme: Value, seed: u64, token: String, elapsed_ms: f64) -> Self {
-        let jackknife = o.diagnostics.jackknife.map(|k| JackknifeJson {
-            kind: k.name(),
-            groups: match k {
-                JackknifeKind::Grouped { groups } => Some(groups),
-                _ => None,
-            },
-        });
+    pub fn from_outcome(o: Outcome, params: &Params, seed: u64, token: String, elapsed_ms: f64) -> Self {
+        let diagnostics = DiagnosticsJson::of(&o);
+        let e = o.extras;
         IntervalResponse {
             estimate: o.estimate,
             standard_error: o.standard_error,
@@ -177,52 +213,21 @@ impl IntervalResponse {
             bias: o.bias,
             bias_mc_error: o.bias_mc_error,
             bias_corrected_estimate: o.bias_corrected_estimate,
-            n: o.n,
+            n: o.n[0],
             resamples: o.resamples,
             complete: o.complete,
-            intervals: o
-                .intervals
-                .iter()
-                .map(|iv| IntervalJson {
-                    method: iv.method.name(),
-                    level: iv.level,
-                    lower: iv.endpoints.lower,
-                    upper: iv.endpoints.upper,
-                    lower_mc_error: iv.endpoints.lower_mc_error,
-                    upper_mc_error: iv.endpoints.upper_mc_error,
-                    quantile_levels: iv.endpoints.quantile_levels.map(|(a, b)| [a, b]),
-                })
-                .collect(),
-            statistic,
-            scheme,
+            intervals: o.intervals.iter().map(IntervalJson::of).collect(),
+            statistic: params.statistic.clone(),
+            scheme: params.scheme,
             seed,
-            diagnostics: DiagnosticsJson {
-                z0: o.diagnostics.z0,
-                acceleration: o.diagnostics.acceleration,
-                replicate_skewness: o.diagnostics.replicate_skewness,
-                distinct_replicate_values: o.diagnostics.distinct_replicate_values,
-                undefined_replicates: o.diagnostics.undefined_replicates,
-                jackknife,
-                studentized_standard_error: o.diagnostics.studentized_standard_error,
-                inner_resamples: o.diagnostics.inner_resamples,
-                stop: o.stop.name(),
-                warnings: o
-                    .diagnostics
-                    .warnings
-                    .into_iter()
-                    .map(|w| WarningJson {
-                        code: w.code,
-                        message: w.message,
-                    })
-                    .collect(),
-            },
-            histogram: o
+            diagnostics,
+            histogram: e
                 .histogram
                 .map(|Histogram { edges, counts, mass }| HistogramJson { edges, counts, mass }),
-            cdf: o.cdf.map(|Cdf { values, probabilities }| CdfJson { values, probabilities }),
-            replicates: o.replicates,
-            replicate_standard_errors: o.replicate_standard_errors,
-            replicate_probabilities: o.replicate_probabilities,
+            cdf: e.cdf.map(|Cdf { values, probabilities }| CdfJson { values, probabilities }),
+            replicates: e.replicates,
+            replicate_standard_errors: e.replicate_standard_errors,
+            replicate_probabilities: e.replicate_probabilities,
             token,
             elapsed_ms,
         }

@@ -1,50 +1,229 @@
-//! Validated sample forms and their prepared, resampling-ready layout.
+//! Samples as the caller gave them, and their resampling-ready layout.
 //!
-//! Every resample in the engine is a vector of non-negative weights over *units*: for a raw
-//! column the units are its rows (each observed once), for aggregated data the distinct values
-//! (observed `counts[j]` times), for named columns the rows. An `iid` resample gives integer
-//! weights (how often each unit was drawn), the Bayesian scheme real Dirichlet weights; in both
-//! the weights add up to the resample size. Working with weights means aggregated data is
-//! resampled in O(distinct values) rather than O(total count), and one implementation of each
-//! statistic serves every scheme.
+//! A [`Sample`] keeps the rows in the order they were sent: a block scheme reads that order as
+//! time, and a paired comparison reads it as the pairing. Its constructors check what the
+//! engine needs of any sample (at least two observations, equal lengths, magnitudes whose sums
+//! of squares stay finite) and report every problem at once, each with its [`Place`].
+//!
+//! Every resample is a vector of non-negative weights over *units* that add up to the sample
+//! size. A [`Layout`] says what the units are: for one column, its values sorted once (raw rows
+//! each have base weight 1; the distinct values of aggregated data their counts), with the unit
+//! of every row kept so that row order is never lost; for named columns, the rows in the order
+//! sent. Sorting once lets order statistics of any weighted resample be read in one pass, and
+//! working with weights resamples aggregated data in O(distinct values).
+//!
+//! Group labels (strata, clusters) are per-row data read by the scheme that uses them; they are
+//! interned once into [`Groups`].
 
 use sha2::{Digest, Sha256};
 
-/// A sample as the caller gave it, already checked for finiteness and shape.
+/// The largest magnitude accepted in data. A variance of such data is at most about 1e150, so
+/// the squared deviations of its replicates, summed over a million of them, stay finite.
+pub const MAX_MAGNITUDE: f64 = 1e75;
+
+/// The fewest observations a bootstrap can work with.
+pub const MIN_OBSERVATIONS: u64 = 2;
+
+/// Where in a sample (or in the statistic's parameters) a problem lies.
 #[derive(Debug, Clone, PartialEq)]
-pub enum Sample {
+pub enum Place {
+    /// The sample as a whole.
+    Whole,
+    /// The i-th value of one column (for aggregated data, of its distinct values).
+    Value(usize),
+    /// The i-th count of aggregated data.
+    Count(usize),
+    /// The counts of aggregated data as a whole.
+    Counts,
+    /// A named column as a whole.
+    Column(String),
+    /// The i-th value of a named column.
+    ColumnValue(String, usize),
+    /// A parameter of the statistic that names a column.
+    Parameter(&'static str),
+}
+
+/// Why a sample cannot be used, or why a statistic cannot be computed on it. The texts speak of
+/// the data and the statistic; the service adds where in its request the problem lies.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum DataError {
+    #[error("has {n} observation(s); a bootstrap needs at least {MIN_OBSERVATIONS}")]
+    TooFew { n: u64 },
+    #[error("has magnitude above {MAX_MAGNITUDE:e}, where sums of squares overflow double precision; rescale the data (other units)")]
+    TooLarge { at: Place },
+    #[error("has {len} entries but {other} has {expected}; they must be the same length")]
+    LengthMismatch {
+        at: Place,
+        len: usize,
+        other: String,
+        expected: usize,
+    },
+    #[error("the counts add up to more than can be resampled")]
+    CountsOverflow,
+    #[error("needs at least one column")]
+    NoColumns,
+    #[error("the statistic {statistic} reads named columns, and this sample is one column")]
+    NeedsColumns { statistic: &'static str },
+    #[error("the statistic {statistic} reads one column, and this sample is named columns")]
+    NeedsOneColumn { statistic: &'static str },
+    #[error("the geometric mean needs positive values; {value} is not (drop or shift non-positive values, or use the median)")]
+    NotPositive { index: usize, value: f64 },
+    #[error("a proportion needs data of 0 and 1 only; {value} is neither (code successes as 1 and failures as 0)")]
+    NotBinary { index: usize, value: f64 },
+    #[error("the coefficient of variation divides by the mean, which is 0 for this data; use the standard deviation instead")]
+    ZeroMean,
+    #[error("dividing by n - 1 needs more than one observation")]
+    TooFewForDivisor,
+    #[error("column \"{name}\" is not in the data; the data has {}", quoted(available))]
+    MissingColumn {
+        parameter: &'static str,
+        name: String,
+        available: Vec<String>,
+    },
+    #[error("this column is constant, so {why}")]
+    ConstantColumn { column: String, why: &'static str },
+    #[error("the denominator column sums to 0, so the ratio of sums is undefined")]
+    ZeroSum { column: String },
+    #[error("the {statistic} needs at least {needed} rows")]
+    TooFewRows { statistic: &'static str, needed: usize },
+    #[error("the {statistic} of this data is undefined")]
+    Undefined { statistic: &'static str },
+}
+
+fn quoted(names: &[String]) -> String {
+    names.iter().map(|n| format!("\"{n}\"")).collect::<Vec<_>>().join(", ")
+}
+
+impl DataError {
+    /// Where the problem lies.
+    pub fn place(&self) -> Place {
+        match self {
+            DataError::TooLarge { at } | DataError::LengthMismatch { at, .. } => at.clone(),
+            DataError::CountsOverflow => Place::Counts,
+            DataError::NotPositive { index, .. } | DataError::NotBinary { index, .. } => Place::Value(*index),
+            DataError::MissingColumn { parameter, .. } => Place::Parameter(parameter),
+            DataError::ConstantColumn { column, .. } | DataError::ZeroSum { column } => Place::Column(column.clone()),
+            _ => Place::Whole,
+        }
+    }
+}
+
+/// A sample as the caller gave it. Only its constructors make one, so every `Sample` has been
+/// checked.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Sample(Form);
+
+/// The three forms a sample comes in.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Form {
     /// One column of observations, in the order given.
     Column(Vec<f64>),
     /// Distinct values with how often each was observed.
     Aggregated { values: Vec<f64>, counts: Vec<u64> },
-    /// Equal-length named columns resampled together as rows.
+    /// Equal-length named columns read together as rows, in the order given.
     Columns { names: Vec<String>, columns: Vec<Vec<f64>> },
 }
 
+/// Every value above [`MAX_MAGNITUDE`], placed by `at`.
+fn too_large(x: &[f64], at: impl Fn(usize) -> Place, errors: &mut Vec<DataError>) {
+    for (i, v) in x.iter().enumerate() {
+        if v.abs() > MAX_MAGNITUDE || !v.is_finite() {
+            errors.push(DataError::TooLarge { at: at(i) });
+        }
+    }
+}
+
+fn checked(form: Form, mut errors: Vec<DataError>) -> Result<Sample, Vec<DataError>> {
+    let sample = Sample(form);
+    if errors.is_empty() && sample.n() < MIN_OBSERVATIONS {
+        errors.push(DataError::TooFew { n: sample.n() });
+    }
+    if errors.is_empty() {
+        Ok(sample)
+    } else {
+        Err(errors)
+    }
+}
+
 impl Sample {
+    /// One column of observations.
+    pub fn column(x: Vec<f64>) -> Result<Sample, Vec<DataError>> {
+        let mut errors = Vec::new();
+        too_large(&x, Place::Value, &mut errors);
+        checked(Form::Column(x), errors)
+    }
+
+    /// Distinct values with their counts.
+    pub fn aggregated(values: Vec<f64>, counts: Vec<u64>) -> Result<Sample, Vec<DataError>> {
+        let mut errors = Vec::new();
+        too_large(&values, Place::Value, &mut errors);
+        if values.len() != counts.len() {
+            errors.push(DataError::LengthMismatch {
+                at: Place::Counts,
+                len: counts.len(),
+                other: "values".into(),
+                expected: values.len(),
+            });
+        } else if counts.iter().try_fold(0u64, |a, c| a.checked_add(*c)).is_none() {
+            errors.push(DataError::CountsOverflow);
+        }
+        checked(Form::Aggregated { values, counts }, errors)
+    }
+
+    /// Named columns of equal length.
+    pub fn columns(names: Vec<String>, columns: Vec<Vec<f64>>) -> Result<Sample, Vec<DataError>> {
+        let mut errors = Vec::new();
+        if columns.is_empty() {
+            return Err(vec![DataError::NoColumns]);
+        }
+        for (name, c) in names.iter().zip(&columns) {
+            too_large(c, |i| Place::ColumnValue(name.clone(), i), &mut errors);
+            if c.len() != columns[0].len() {
+                errors.push(DataError::LengthMismatch {
+                    at: Place::Column(name.clone()),
+                    len: c.len(),
+                    other: format!("column \"{}\"", names[0]),
+                    expected: columns[0].len(),
+                });
+            }
+        }
+        checked(Form::Columns { names, columns }, errors)
+    }
+
+    /// The form the sample came in.
+    pub fn form(&self) -> &Form {
+        &self.0
+    }
+
     /// The number of observations (rows, or the sum of the counts).
     pub fn n(&self) -> u64 {
-        match self {
-            Sample::Column(x) => x.len() as u64,
-            Sample::Aggregated { counts, .. } => counts.iter().sum(),
-            Sample::Columns { columns, .. } => columns.first().map_or(0, |c| c.len() as u64),
+        match &self.0 {
+            Form::Column(x) => x.len() as u64,
+            Form::Aggregated { counts, .. } => counts.iter().sum(),
+            Form::Columns { columns, .. } => columns.first().map_or(0, |c| c.len() as u64),
         }
     }
 
-    /// The number of units a resample puts weights on.
-    pub fn units(&self) -> usize {
-        match self {
-            Sample::Column(x) => x.len(),
-            Sample::Aggregated { values, .. } => values.len(),
-            Sample::Columns { columns, .. } => columns.first().map_or(0, |c| c.len()),
+    /// The number of rows as sent (for aggregated data, of distinct values): what the server's
+    /// row limit bounds.
+    pub fn rows(&self) -> usize {
+        match &self.0 {
+            Form::Column(x) => x.len(),
+            Form::Aggregated { values, .. } => values.len(),
+            Form::Columns { columns, .. } => columns.first().map_or(0, |c| c.len()),
         }
     }
 
-    /// The number of units with a positive count (what a resample spreads weight over).
-    pub fn units_with_weight(&self) -> usize {
-        match self {
-            Sample::Aggregated { counts, .. } => counts.iter().filter(|c| **c > 0).count(),
-            _ => self.units(),
+    /// True when every observation has the same value (in every column).
+    pub fn is_constant(&self) -> bool {
+        let constant = |x: &[f64]| x.iter().all(|v| *v == x[0]);
+        match &self.0 {
+            Form::Column(x) => constant(x),
+            Form::Aggregated { values, counts } => {
+                let seen: Vec<f64> = values.iter().zip(counts).filter(|(_, c)| **c > 0).map(|(v, _)| *v).collect();
+                constant(&seen)
+            }
+            Form::Columns { columns, .. } => columns.iter().all(|c| constant(c)),
         }
     }
 
@@ -52,15 +231,18 @@ impl Sample {
     /// bits of every value), so a token can tell whether it is replayed on the same data.
     pub fn digest(&self) -> [u8; 32] {
         let mut h = Sha256::new();
-        match self {
-            Sample::Column(x) => {
-                h.update(b"column");
-                h.update((x.len() as u64).to_le_bytes());
-                for v in x {
-                    h.update(v.to_bits().to_le_bytes());
-                }
+        let values = |h: &mut Sha256, x: &[f64]| {
+            h.update((x.len() as u64).to_le_bytes());
+            for v in x {
+                h.update(v.to_bits().to_le_bytes());
             }
-            Sample::Aggregated { values, counts } => {
+        };
+        match &self.0 {
+            Form::Column(x) => {
+                h.update(b"column");
+                values(&mut h, x);
+            }
+            Form::Aggregated { values, counts } => {
                 h.update(b"aggregated");
                 h.update((values.len() as u64).to_le_bytes());
                 for (v, c) in values.iter().zip(counts) {
@@ -68,7 +250,7 @@ impl Sample {
                     h.update(c.to_le_bytes());
                 }
             }
-            Sample::Columns { names, columns } => {
+            Form::Columns { names, columns } => {
                 h.update(b"columns");
                 h.update((names.len() as u64).to_le_bytes());
                 // Columns by name: a JSON object's key order carries no meaning.
@@ -77,10 +259,7 @@ impl Sample {
                 for (name, col) in by_name {
                     h.update((name.len() as u64).to_le_bytes());
                     h.update(name.as_bytes());
-                    h.update((col.len() as u64).to_le_bytes());
-                    for v in col {
-                        h.update(v.to_bits().to_le_bytes());
-                    }
+                    values(&mut h, col);
                 }
             }
         }
@@ -88,31 +267,65 @@ impl Sample {
     }
 }
 
-/// One column laid out for resampling: units sorted by value, each with its base weight.
-///
-/// Sorting once up front lets order statistics of any weighted resample be read in one pass
-/// over the cumulative weights, without sorting per replicate.
+/// One column laid out for resampling: units sorted by value, each with its base weight, and
+/// for raw rows the unit of every row in the order sent.
 #[derive(Debug, Clone)]
-pub struct SortedColumn {
+pub struct ColumnLayout {
     /// Unit values, ascending.
     pub x: Vec<f64>,
     /// How often each unit occurs in the sample (1 for raw rows).
     pub base: Vec<f64>,
     /// The sample size, Σ base.
     pub total: f64,
-    /// True when every base weight is 1 (raw rows), so `iid` can draw units uniformly.
+    /// True when every base weight is 1 (raw rows), so that rows can be drawn uniformly.
     pub raw: bool,
+    /// For raw rows: the unit (sorted position) of row t, for t in the order sent.
+    pub unit_of_row: Vec<u32>,
 }
 
-/// Named columns laid out for resampling; units are rows.
+impl ColumnLayout {
+    /// Raw rows: sorted once, remembering where each row went.
+    pub fn rows(x: &[f64]) -> ColumnLayout {
+        let mut order: Vec<u32> = (0..x.len() as u32).collect();
+        order.sort_by(|a, b| x[*a as usize].total_cmp(&x[*b as usize]));
+        let mut unit_of_row = vec![0u32; x.len()];
+        for (unit, row) in order.iter().enumerate() {
+            unit_of_row[*row as usize] = unit as u32;
+        }
+        ColumnLayout {
+            x: order.iter().map(|r| x[*r as usize]).collect(),
+            base: vec![1.0; x.len()],
+            total: x.len() as f64,
+            raw: true,
+            unit_of_row,
+        }
+    }
+
+    /// Aggregated data: the observed distinct values, sorted, with their counts.
+    pub fn aggregated(values: &[f64], counts: &[u64]) -> ColumnLayout {
+        let mut pairs: Vec<(f64, u64)> = values.iter().copied().zip(counts.iter().copied()).filter(|p| p.1 > 0).collect();
+        pairs.sort_by(|a, b| a.0.total_cmp(&b.0));
+        ColumnLayout {
+            x: pairs.iter().map(|p| p.0).collect(),
+            base: pairs.iter().map(|p| p.1 as f64).collect(),
+            total: pairs.iter().map(|p| p.1 as f64).sum(),
+            raw: false,
+            unit_of_row: Vec::new(),
+        }
+    }
+}
+
+/// Named columns laid out for resampling; units are rows, in the order sent.
 #[derive(Debug, Clone)]
-pub struct RowTable {
+pub struct TableLayout {
     pub names: Vec<String>,
     pub columns: Vec<Vec<f64>>,
     pub rows: usize,
+    /// Every row's base weight, 1.
+    pub base: Vec<f64>,
 }
 
-impl RowTable {
+impl TableLayout {
     pub fn column(&self, name: &str) -> Option<&[f64]> {
         self.names.iter().position(|n| n == name).map(|i| self.columns[i].as_slice())
     }
@@ -120,74 +333,58 @@ impl RowTable {
 
 /// The resampling-ready layout of a sample.
 #[derive(Debug, Clone)]
-pub enum Prepared {
-    One(SortedColumn),
-    Rows(RowTable),
+pub enum Layout {
+    Column(ColumnLayout),
+    Table(TableLayout),
 }
 
-impl Prepared {
-    pub fn from_sample(sample: &Sample) -> Prepared {
-        match sample {
-            Sample::Column(x) => {
-                let mut v = x.clone();
-                v.sort_by(f64::total_cmp);
-                let n = v.len();
-                Prepared::One(SortedColumn {
-                    x: v,
-                    base: vec![1.0; n],
-                    total: n as f64,
-                    raw: true,
+impl Layout {
+    pub fn of(sample: &Sample) -> Layout {
+        match sample.form() {
+            Form::Column(x) => Layout::Column(ColumnLayout::rows(x)),
+            Form::Aggregated { values, counts } => Layout::Column(ColumnLayout::aggregated(values, counts)),
+            Form::Columns { names, columns } => {
+                let rows = columns.first().map_or(0, |c| c.len());
+                Layout::Table(TableLayout {
+                    names: names.clone(),
+                    columns: columns.clone(),
+                    rows,
+                    base: vec![1.0; rows],
                 })
             }
-            Sample::Aggregated { values, counts } => {
-                let mut pairs: Vec<(f64, u64)> = values.iter().copied().zip(counts.iter().copied()).filter(|p| p.1 > 0).collect();
-                pairs.sort_by(|a, b| a.0.total_cmp(&b.0));
-                let total = pairs.iter().map(|p| p.1 as f64).sum();
-                Prepared::One(SortedColumn {
-                    x: pairs.iter().map(|p| p.0).collect(),
-                    base: pairs.iter().map(|p| p.1 as f64).collect(),
-                    total,
-                    raw: false,
-                })
-            }
-            Sample::Columns { names, columns } => Prepared::Rows(RowTable {
-                names: names.clone(),
-                columns: columns.clone(),
-                rows: columns.first().map_or(0, |c| c.len()),
-            }),
         }
     }
+}
 
-    /// Number of units that carry weights.
-    pub fn units(&self) -> usize {
-        match self {
-            Prepared::One(c) => c.x.len(),
-            Prepared::Rows(t) => t.rows,
-        }
+/// Group labels of the rows (strata or clusters), interned: `of_row[t]` is the group of row t,
+/// numbered 0.. in the order the groups first appear.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Groups {
+    pub of_row: Vec<u32>,
+    pub count: usize,
+}
+
+impl Groups {
+    /// Intern labels of any comparable kind.
+    pub fn from_labels<L: Eq + std::hash::Hash>(labels: &[L]) -> Groups {
+        let mut seen = std::collections::HashMap::new();
+        let of_row = labels
+            .iter()
+            .map(|l| {
+                let next = seen.len() as u32;
+                *seen.entry(l).or_insert(next)
+            })
+            .collect();
+        Groups { of_row, count: seen.len() }
     }
 
-    /// Base weights: the weights of the sample itself.
-    pub fn base_weights(&self) -> Vec<f64> {
-        match self {
-            Prepared::One(c) => c.base.clone(),
-            Prepared::Rows(t) => vec![1.0; t.rows],
+    /// The rows of each group, in row order.
+    pub fn members(&self) -> Vec<Vec<u32>> {
+        let mut m = vec![Vec::new(); self.count];
+        for (row, g) in self.of_row.iter().enumerate() {
+            m[*g as usize].push(row as u32);
         }
-    }
-
-    /// Sample size (total base weight).
-    pub fn total(&self) -> f64 {
-        match self {
-            Prepared::One(c) => c.total,
-            Prepared::Rows(t) => t.rows as f64,
-        }
-    }
-
-    /// True when every unit has base weight one.
-    pub fn raw_rows(&self) -> bool {
-        match self {
-            Prepared::One(c) => c.raw,
-            Prepared::Rows(_) => true,
-        }
+        m
     }
 }
 
@@ -197,29 +394,51 @@ mod tests {
 
     #[test]
     fn digest_tells_forms_and_values_apart() {
-        let a = Sample::Column(vec![1.0, 2.0]);
-        let b = Sample::Column(vec![1.0, 2.000000000000001]);
-        let c = Sample::Aggregated {
-            values: vec![1.0, 2.0],
-            counts: vec![1, 1],
-        };
-        assert_eq!(a.digest(), Sample::Column(vec![1.0, 2.0]).digest());
+        let a = Sample::column(vec![1.0, 2.0]).unwrap();
+        let b = Sample::column(vec![1.0, 2.000000000000001]).unwrap();
+        let c = Sample::aggregated(vec![1.0, 2.0], vec![1, 1]).unwrap();
+        assert_eq!(a.digest(), Sample::column(vec![1.0, 2.0]).unwrap().digest());
         assert_ne!(a.digest(), b.digest());
         assert_ne!(a.digest(), c.digest());
     }
 
     #[test]
     fn aggregated_is_sorted_and_drops_zero_counts() {
-        let s = Sample::Aggregated {
-            values: vec![3.0, 1.0, 2.0],
-            counts: vec![2, 5, 0],
-        };
-        let Prepared::One(c) = Prepared::from_sample(&s) else {
-            panic!("one column")
-        };
+        let c = ColumnLayout::aggregated(&[3.0, 1.0, 2.0], &[2, 5, 0]);
         assert_eq!(c.x, vec![1.0, 3.0]);
         assert_eq!(c.base, vec![5.0, 2.0]);
         assert_eq!(c.total, 7.0);
-        assert_eq!(s.n(), 7);
+    }
+
+    #[test]
+    fn raw_rows_keep_their_order_beside_the_sorted_units() {
+        let x = [5.0, 1.0, 4.0, 1.0, 3.0];
+        let c = ColumnLayout::rows(&x);
+        assert_eq!(c.x, vec![1.0, 1.0, 3.0, 4.0, 5.0]);
+        let back: Vec<f64> = c.unit_of_row.iter().map(|u| c.x[*u as usize]).collect();
+        assert_eq!(back, x);
+    }
+
+    #[test]
+    fn constructors_report_every_problem_with_its_place() {
+        let e = Sample::column(vec![1.0, 2e75, -3e80]).unwrap_err();
+        assert_eq!(
+            e.iter().map(DataError::place).collect::<Vec<_>>(),
+            [Place::Value(1), Place::Value(2)]
+        );
+        assert_eq!(Sample::column(vec![1.0]).unwrap_err(), [DataError::TooFew { n: 1 }]);
+        let e = Sample::aggregated(vec![1.0, 2.0], vec![3]).unwrap_err();
+        assert_eq!(e[0].place(), Place::Counts);
+        let e = Sample::columns(vec!["x".into(), "y".into()], vec![vec![1.0, 2.0], vec![1.0]]).unwrap_err();
+        assert_eq!(e[0].place(), Place::Column("y".into()));
+        assert!(Sample::aggregated(vec![1.0, 2.0], vec![0, 1]).is_err(), "one observation in all");
+    }
+
+    #[test]
+    fn groups_are_numbered_in_order_of_first_appearance() {
+        let g = Groups::from_labels(&["b", "a", "b", "c", "a"]);
+        assert_eq!(g.of_row, vec![0, 1, 0, 2, 1]);
+        assert_eq!(g.count, 3);
+        assert_eq!(g.members(), vec![vec![0, 2], vec![1, 4], vec![3]]);
     }
 }

@@ -1,20 +1,59 @@
 //! Diagnostics: warnings that tell a person when not to trust the numbers, and what to do.
 //!
-//! Each warning has a stable machine-readable `code` (never renamed; new ones may be added)
-//! and a sentence for a person. The thresholds are rules of thumb, named and explained here so
-//! that they can be argued with.
+//! Each warning has a stable machine-readable code (never renamed; new ones may be added) and
+//! a sentence for a person. The thresholds are rules of thumb, named and explained here so that
+//! they can be argued with. Every warning's text is written here.
 
-use crate::engine::interval::{Method, ReplicateDistribution};
+use crate::engine::distribution::ReplicateDistribution;
+use crate::engine::interval::{Level, Method};
+
+crate::wire_enum! {
+    /// A stable, machine-readable warning code.
+    pub enum WarningCode {
+        /// Fewer than 10 observations: intervals are rough and usually too narrow.
+        SmallSample = "small_sample",
+        /// Every value is the same: the standard error is 0 and every interval has zero width.
+        ConstantData = "constant_data",
+        /// A quantile so far in a tail that fewer than 5 observations lie beyond it.
+        ExtremeQuantile = "extreme_quantile",
+        /// The replicates take few distinct values, so endpoints jump between them.
+        FewDistinctReplicates = "few_distinct_replicates",
+        /// The bootstrap bias is more than a quarter of the standard error.
+        LargeBias = "large_bias",
+        /// The replicate distribution is strongly skewed (|skewness| above 1).
+        SkewedReplicates = "skewed_replicates",
+        /// Some resamples gave an undefined statistic and were left out.
+        UndefinedReplicates = "undefined_replicates",
+        /// The BCa correction pushes an endpoint to the end of the replicate range.
+        ExtremeBcaAdjustment = "extreme_bca_adjustment",
+        /// The jackknife acceleration could not be computed, so BCa used a = 0.
+        BcaWithoutAcceleration = "bca_without_acceleration",
+        /// A tail of a quantile-based interval holds fewer than 25 replicates.
+        TooFewResamples = "too_few_resamples",
+        /// The data, in the order given, are serially correlated under a scheme that assumes independent rows.
+        SerialCorrelation = "serial_correlation",
+        /// Some resamples had a zero standard error and were left out of the studentized interval.
+        StudentizedDegenerate = "studentized_degenerate",
+        /// The time limit stopped drawing early; the result covers the resamples done.
+        PartialResult = "partial_result",
+        /// "auto" reached the resample or work limit before its Monte Carlo target.
+        AutoResampleLimit = "auto_resample_limit",
+        /// "auto" reached the time limit before its Monte Carlo target.
+        AutoTimeLimit = "auto_time_limit",
+        /// With "exact", the nested bootstrap of a studentized interval is still random.
+        InexactNestedStudentized = "inexact_nested_studentized",
+    }
+}
 
 /// A warning about the result.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Warning {
-    pub code: &'static str,
+    pub code: WarningCode,
     pub message: String,
 }
 
 impl Warning {
-    pub fn new(code: &'static str, message: impl Into<String>) -> Self {
+    pub fn new(code: WarningCode, message: impl Into<String>) -> Self {
         Warning {
             code,
             message: message.into(),
@@ -41,141 +80,227 @@ pub const TAIL_REPLICATES: f64 = 25.0;
 /// A lag-1 autocorrelation above this many standard errors (1/√n under independence) flags
 /// serial correlation; three standard errors keep false alarms near one in 700.
 pub const SERIAL_Z: f64 = 3.0;
+/// The shortest series whose lag-1 autocorrelation is looked at.
+pub const SERIAL_MIN_ROWS: usize = 20;
 
+/// What the warnings are decided from.
 pub struct Facts<'a> {
     pub n: f64,
     pub dist: &'a ReplicateDistribution,
-    pub estimate: f64,
     pub bias: f64,
     pub standard_error: f64,
-    pub levels: &'a [f64],
+    pub levels: &'a [Level],
     pub methods: &'a [Method],
     pub undefined: u64,
     pub reads_extremes: bool,
     pub constant_data: bool,
-    /// Lag-1 autocorrelation of a one-column sample in the order given, when it was measured.
+    /// Lag-1 autocorrelation of the rows in the order given, when the scheme assumes they are
+    /// independent and it was measured.
     pub lag1: Option<f64>,
     pub bca_z0_clamped: bool,
-    /// (level, lower adjusted level, upper adjusted level) of each BCa interval.
-    pub bca_levels: Vec<(f64, f64, f64)>,
+    /// (lower, upper) adjusted quantile levels of each BCa interval.
+    pub bca_levels: Vec<(f64, f64)>,
     pub bca_no_acceleration: bool,
     pub studentized_dropped: u64,
+    /// Exact enumeration with a nested (random) studentized standard error.
+    pub inexact_nested: bool,
 }
 
+/// Every warning the facts call for, in a fixed order.
 pub fn assess(f: &Facts) -> Vec<Warning> {
-    let mut w = Vec::new();
-    let b = f.dist.len() as f64;
+    let checks: [fn(&Facts) -> Option<Warning>; 12] = [
+        sample_size,
+        extreme_quantile,
+        few_distinct,
+        large_bias,
+        skewed,
+        undefined,
+        extreme_bca,
+        bca_without_acceleration,
+        too_few_resamples,
+        serial_correlation,
+        studentized_degenerate,
+        inexact_nested,
+    ];
+    checks.iter().filter_map(|check| check(f)).collect()
+}
+
+fn sample_size(f: &Facts) -> Option<Warning> {
     if f.constant_data {
-        w.push(Warning::new(
-            "constant_data",
+        Some(Warning::new(
+            WarningCode::ConstantData,
             "every value in the data is the same, so every resample is too: the standard error is 0 and every interval has zero width. That says nothing about the spread of new data; gather more varied data.",
-        ));
+        ))
     } else if f.n < SMALL_SAMPLE {
-        w.push(Warning::new(
-            "small_sample",
+        Some(Warning::new(
+            WarningCode::SmallSample,
             format!(
                 "only {} observations: bootstrap intervals from so few are unreliable (they tend to be too narrow). Gather more data; meanwhile prefer bca or studentized and read the interval as rough.",
                 f.n
             ),
-        ));
+        ))
+    } else {
+        None
     }
-    if f.reads_extremes {
-        w.push(Warning::new(
-            "extreme_quantile",
+}
+
+fn extreme_quantile(f: &Facts) -> Option<Warning> {
+    f.reads_extremes.then(|| {
+        Warning::new(
+            WarningCode::ExtremeQuantile,
             "the quantile sits so far in a tail that fewer than 5 observations lie beyond it; the bootstrap cannot see past the most extreme observations, so its intervals for such a quantile are too narrow. Gather more data or report a less extreme quantile.",
-        ));
-    }
+        )
+    })
+}
+
+fn few_distinct(f: &Facts) -> Option<Warning> {
+    let b = f.dist.len() as f64;
     let distinct = f.dist.distinct();
-    if !f.constant_data && distinct < FEW_DISTINCT.min((b / 4.0) as usize).max(2) {
-        w.push(Warning::new(
-            "few_distinct_replicates",
+    (!f.constant_data && distinct < FEW_DISTINCT.min((b / 4.0) as usize).max(2)).then(|| {
+        Warning::new(
+            WarningCode::FewDistinctReplicates,
             format!(
                 "the {} replicates take only {distinct} distinct values (ties in the data, a small sample, or a median of lumpy data), so interval endpoints jump between a few values; widen the data, or treat the endpoints as coarse.",
                 f.dist.len()
             ),
-        ));
-    }
-    if f.standard_error > 0.0 && f.bias.abs() > BIAS_SHARE * f.standard_error {
-        w.push(Warning::new(
-            "large_bias",
+        )
+    })
+}
+
+fn large_bias(f: &Facts) -> Option<Warning> {
+    (f.standard_error > 0.0 && f.bias.abs() > BIAS_SHARE * f.standard_error).then(|| {
+        Warning::new(
+            WarningCode::LargeBias,
             format!(
                 "the bootstrap bias is {:.2} standard errors; the percentile, basic and normal intervals may be off-centre. Prefer bca, and do not simply subtract the bias: bias_corrected_estimate is noisier than the estimate.",
                 f.bias / f.standard_error
             ),
-        ));
-    }
+        )
+    })
+}
+
+fn skewed(f: &Facts) -> Option<Warning> {
     let skew = f.dist.skewness();
-    if skew.abs() > STRONG_SKEW {
-        w.push(Warning::new(
-            "skewed_replicates",
+    (skew.abs() > STRONG_SKEW).then(|| {
+        Warning::new(
+            WarningCode::SkewedReplicates,
             format!("the replicate distribution is strongly skewed (skewness {skew:.2}); the normal and basic intervals assume symmetry. Prefer bca or studentized."),
-        ));
-    }
-    if f.undefined > 0 {
-        w.push(Warning::new(
-            "undefined_replicates",
+        )
+    })
+}
+
+fn undefined(f: &Facts) -> Option<Warning> {
+    (f.undefined > 0).then(|| {
+        Warning::new(
+            WarningCode::UndefinedReplicates,
             format!(
                 "{} resamples gave an undefined statistic (for example a resample with a constant column) and were left out; intervals describe the others. If this is more than a few percent, the statistic is unstable on this data.",
                 f.undefined
             ),
-        ));
+        )
+    })
+}
+
+fn extreme_bca(f: &Facts) -> Option<Warning> {
+    let b = f.dist.len() as f64;
+    let pushed = f.bca_levels.iter().any(|(lo, hi)| *lo * b < 1.0 || (1.0 - hi) * b < 1.0);
+    (f.methods.contains(&Method::Bca) && (f.bca_z0_clamped || pushed)).then(|| {
+        Warning::new(
+            WarningCode::ExtremeBcaAdjustment,
+            "the BCa correction is extreme (the bias-correction z0 or the acceleration pushes an endpoint to the end of the replicate range), so that endpoint is only the most extreme replicate. Use more resamples, check the data for outliers, or compare with the studentized interval.",
+        )
+    })
+}
+
+fn bca_without_acceleration(f: &Facts) -> Option<Warning> {
+    (f.methods.contains(&Method::Bca) && f.bca_no_acceleration).then(|| {
+        Warning::new(
+            WarningCode::BcaWithoutAcceleration,
+            "the jackknife acceleration could not be computed (fewer than 3 observations, or more than 20 000 distinct values of aggregated data for a statistic without a closed-form jackknife), so BCa used a = 0: a bias-corrected percentile interval.",
+        )
+    })
+}
+
+fn too_few_resamples(f: &Facts) -> Option<Warning> {
+    if f.dist.is_exact() {
+        return None;
     }
-    if f.methods.contains(&Method::Bca) {
-        let pushed = f.bca_levels.iter().any(|(_, lo, hi)| *lo * b < 1.0 || (1.0 - hi) * b < 1.0);
-        if f.bca_z0_clamped || pushed {
-            w.push(Warning::new(
-                "extreme_bca_adjustment",
-                "the BCa correction is extreme (the bias-correction z0 or the acceleration pushes an endpoint to the end of the replicate range), so that endpoint is only the most extreme replicate. Use more resamples, check the data for outliers, or compare with the studentized interval.",
-            ));
-        }
-        if f.bca_no_acceleration {
-            w.push(Warning::new(
-                "bca_without_acceleration",
-                "the jackknife acceleration could not be computed (fewer than 3 observations, or more than 20 000 distinct values of aggregated data for a statistic without a closed-form jackknife), so BCa used a = 0: a bias-corrected percentile interval.",
-            ));
-        }
-    }
-    if !f.dist.is_exact() {
-        for level in f.levels {
-            let tail = b * (1.0 - level) / 2.0;
-            if tail < TAIL_REPLICATES {
-                w.push(Warning::new(
-                    "too_few_resamples",
-                    format!(
-                        "at level {level} each tail holds only {tail:.0} of the {} replicates; the endpoints are noisy (see lower_mc_error and upper_mc_error). Use at least {} resamples, or \"auto\".",
-                        f.dist.len(),
-                        (2.0 * TAIL_REPLICATES / (1.0 - level)).ceil()
-                    ),
-                ));
-                break;
-            }
-        }
-    }
-    if let Some(r) = f.lag1 {
-        if r > SERIAL_Z / f.n.sqrt() {
-            w.push(Warning::new(
-                "serial_correlation",
-                format!(
-                    "the data, in the order given, are serially correlated (lag-1 autocorrelation {r:.2}); resampling single rows then understates the standard error. If the order is time, use a block bootstrap scheme, or aggregate to independent periods."
-                ),
-            ));
-        }
-    }
-    if f.studentized_dropped > 0 {
-        w.push(Warning::new(
-            "studentized_degenerate",
+    let b = f.dist.len() as f64;
+    let (level, tail) = f
+        .levels
+        .iter()
+        .map(|level| (level.get(), b * (1.0 - level.get()) / 2.0))
+        .find(|(_, tail)| *tail < TAIL_REPLICATES)?;
+    Some(Warning::new(
+        WarningCode::TooFewResamples,
+        format!(
+            "at level {level} each tail holds only {tail:.0} of the {} replicates; the endpoints are noisy (see lower_mc_error and upper_mc_error). Use at least {} resamples, or \"auto\".",
+            f.dist.len(),
+            (2.0 * TAIL_REPLICATES / (1.0 - level)).ceil()
+        ),
+    ))
+}
+
+fn serial_correlation(f: &Facts) -> Option<Warning> {
+    let r = f.lag1.filter(|r| *r > SERIAL_Z / f.n.sqrt())?;
+    Some(Warning::new(
+        WarningCode::SerialCorrelation,
+        format!(
+            "the data, in the order given, are serially correlated (lag-1 autocorrelation {r:.2}); resampling single rows then understates the standard error. If the order is time, use a block bootstrap scheme, or aggregate to independent periods."
+        ),
+    ))
+}
+
+fn studentized_degenerate(f: &Facts) -> Option<Warning> {
+    (f.studentized_dropped > 0).then(|| {
+        Warning::new(
+            WarningCode::StudentizedDegenerate,
             format!(
                 "{} resamples had a zero standard error and were left out of the studentized interval (common with ties or tiny samples); treat that interval with care.",
                 f.studentized_dropped
             ),
-        ));
-    }
-    w
+        )
+    })
+}
+
+fn inexact_nested(f: &Facts) -> Option<Warning> {
+    f.inexact_nested.then(|| {
+        Warning::new(
+            WarningCode::InexactNestedStudentized,
+            "with \"exact\" the resamples are enumerated, but the studentized interval of this statistic needs a nested bootstrap of each, which is still random: its endpoints carry Monte Carlo error that is not included in lower_mc_error and upper_mc_error (shown as 0). Every other number is exact.",
+        )
+    })
+}
+
+/// The warning for a run that the time limit cut short after `resamples`.
+pub fn partial_result(resamples: u64) -> Warning {
+    Warning::new(
+        WarningCode::PartialResult,
+        format!(
+            "the time limit passed after {resamples} resamples, so this result covers only those (a prefix of the same streams: rerunning with \"resamples\": {resamples} reproduces it). Raise time_limit_ms or lower resamples for the full run."
+        ),
+    )
+}
+
+/// The warning for an `"auto"` run stopped by the resample limit at `resamples`.
+pub fn auto_resample_limit(resamples: u64) -> Warning {
+    Warning::new(
+        WarningCode::AutoResampleLimit,
+        format!("\"auto\" stopped at the server's resample limit ({resamples}) before every endpoint's Monte Carlo error fell below its target share of the standard error."),
+    )
+}
+
+/// The warning for an `"auto"` run stopped by the time limit at `resamples`.
+pub fn auto_time_limit(resamples: u64) -> Warning {
+    Warning::new(
+        WarningCode::AutoTimeLimit,
+        format!("\"auto\" stopped at the time limit after {resamples} resamples, before every endpoint's Monte Carlo error fell below its target share of the standard error."),
+    )
 }
 
 /// Lag-1 autocorrelation of a series, or `None` when it is too short or constant.
 pub fn lag1_autocorrelation(x: &[f64]) -> Option<f64> {
-    if x.len() < 20 {
+    if x.len() < SERIAL_MIN_ROWS {
         return None;
     }
     let n = x.len() as f64;

@@ -22,8 +22,7 @@ use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
-use crate::engine::data::Prepared;
-use crate::engine::statistic::{Scratch, Statistic};
+use crate::engine::statistic::{Estimator, Scratch};
 
 /// Raw rows up to which the generic jackknife leaves out each row in turn.
 pub const GENERIC_LIMIT: usize = 2000;
@@ -34,21 +33,15 @@ pub const GROUPS: usize = 500;
 /// Seed of the fixed permutation that forms the groups.
 const GROUP_SEED: u64 = 0x6a61_636b_6b6e_6966;
 
-/// How the jackknife values were obtained.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum JackknifeKind {
-    ClosedForm,
-    LeaveOneOut,
-    Grouped { groups: usize },
-}
-
-impl JackknifeKind {
-    pub fn name(&self) -> &'static str {
-        match self {
-            JackknifeKind::ClosedForm => "closed_form",
-            JackknifeKind::LeaveOneOut => "leave_one_out",
-            JackknifeKind::Grouped { .. } => "grouped",
-        }
+crate::wire_enum! {
+    /// How the jackknife of the BCa acceleration was computed.
+    pub enum JackknifeKind {
+        /// A closed form in O(n) or O(n log n).
+        ClosedForm = "closed_form",
+        /// Each observation left out in turn.
+        LeaveOneOut = "leave_one_out",
+        /// Groups of observations left out in turn (delete-a-group jackknife).
+        Grouped = "grouped",
     }
 }
 
@@ -58,6 +51,8 @@ pub struct Jackknife {
     pub values: Vec<f64>,
     pub multiplicity: Vec<f64>,
     pub kind: JackknifeKind,
+    /// The number of groups of a grouped jackknife.
+    pub groups: Option<usize>,
 }
 
 /// The jackknife was stopped (deadline or cancellation).
@@ -80,24 +75,35 @@ pub fn cost_in_units(closed_form: bool, units: usize, raw: bool) -> f64 {
     }
 }
 
-/// The jackknife of `stat` on `data`; `Ok(None)` with fewer than 3 observations, or for
-/// aggregated data beyond [`AGGREGATED_LIMIT`] without a closed form.
-pub fn jackknife(stat: &dyn Statistic, data: &Prepared, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
-    if data.total() < 3.0 {
+/// The jackknife of a statistic on its sample; `Ok(None)` with fewer than 3 observations, or
+/// for aggregated data beyond [`AGGREGATED_LIMIT`] without a closed form.
+pub fn jackknife(est: &Estimator, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+    let u = est.units();
+    if u.total < 3.0 {
         return Ok(None);
     }
-    let base = data.base_weights();
-    if let Some(values) = stat.jackknife_closed(data) {
+    let base = u.base.to_vec();
+    if let Some(values) = est.jackknife_closed() {
         return Ok(Some(Jackknife {
             values,
             multiplicity: base,
             kind: JackknifeKind::ClosedForm,
+            groups: None,
         }));
     }
-    let units = data.units();
-    let raw = data.raw_rows();
-    let stopped = AtomicBool::new(false);
-    let check = || {
+    let units = base.len();
+    if (u.raw && units <= GENERIC_LIMIT) || (!u.raw && units <= AGGREGATED_LIMIT) {
+        return leave_one_out(est, base, stop);
+    }
+    if !u.raw {
+        return Ok(None);
+    }
+    grouped(est, base, stop)
+}
+
+/// Flags a stop once it is asked for, so that every worker sees it without asking again.
+fn stop_flag(stop: &(dyn Fn() -> bool + Sync)) -> (AtomicBool, impl Fn(&AtomicBool) -> bool + Sync + '_) {
+    let check = move |stopped: &AtomicBool| {
         if stopped.load(Ordering::Relaxed) || stop() {
             stopped.store(true, Ordering::Relaxed);
             true
@@ -105,34 +111,44 @@ pub fn jackknife(stat: &dyn Statistic, data: &Prepared, stop: &(dyn Fn() -> bool
             false
         }
     };
-    if (raw && units <= GENERIC_LIMIT) || (!raw && units <= AGGREGATED_LIMIT) {
-        let values: Vec<f64> = (0..units)
-            .into_par_iter()
-            .map_init(
-                || (base.clone(), Scratch::with_units(units)),
-                |(w, scratch), j| {
-                    if check() {
-                        return f64::NAN;
-                    }
-                    w[j] -= 1.0;
-                    let v = stat.evaluate(data, w, scratch);
-                    w[j] += 1.0;
-                    v
-                },
-            )
-            .collect();
-        if stopped.load(Ordering::Relaxed) {
-            return Err(Stopped);
-        }
-        return Ok(Some(Jackknife {
-            values,
-            multiplicity: base,
-            kind: JackknifeKind::LeaveOneOut,
-        }));
+    (AtomicBool::new(false), check)
+}
+
+/// Leave out one observation of each unit in turn.
+fn leave_one_out(est: &Estimator, base: Vec<f64>, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+    let units = base.len();
+    let (stopped, check) = stop_flag(stop);
+    let values: Vec<f64> = (0..units)
+        .into_par_iter()
+        .map_init(
+            || (base.clone(), Scratch::with_units(units)),
+            |(w, scratch), j| {
+                if check(&stopped) {
+                    return f64::NAN;
+                }
+                w[j] -= 1.0;
+                let v = est.evaluate(w, scratch);
+                w[j] += 1.0;
+                v
+            },
+        )
+        .collect();
+    if stopped.load(Ordering::Relaxed) {
+        return Err(Stopped);
     }
-    if !raw {
-        return Ok(None);
-    }
+    Ok(Some(Jackknife {
+        values,
+        multiplicity: base,
+        kind: JackknifeKind::LeaveOneOut,
+        groups: None,
+    }))
+}
+
+/// Leave out groups of rows in turn: [`GROUPS`] groups of (almost) equal size dealt by a fixed
+/// permutation.
+fn grouped(est: &Estimator, base: Vec<f64>, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+    let units = base.len();
+    let (stopped, check) = stop_flag(stop);
     // Rows dealt into GROUPS groups of (almost) equal size by a fixed permutation.
     let mut order: Vec<usize> = (0..units).collect();
     order.shuffle(&mut ChaCha8Rng::seed_from_u64(GROUP_SEED));
@@ -141,7 +157,7 @@ pub fn jackknife(stat: &dyn Statistic, data: &Prepared, stop: &(dyn Fn() -> bool
         group_of[*row] = (k % GROUPS) as u32;
     }
     let members: Vec<Vec<usize>> = {
-        let mut m = vec![Vec::with_capacity(units / GROUPS + 1); GROUPS];
+        let mut m: Vec<Vec<usize>> = (0..GROUPS).map(|_| Vec::with_capacity(units / GROUPS + 1)).collect();
         for (row, g) in group_of.iter().enumerate() {
             m[*g as usize].push(row);
         }
@@ -152,13 +168,13 @@ pub fn jackknife(stat: &dyn Statistic, data: &Prepared, stop: &(dyn Fn() -> bool
         .map_init(
             || (base.clone(), Scratch::with_units(units)),
             |(w, scratch), rows| {
-                if check() {
+                if check(&stopped) {
                     return f64::NAN;
                 }
                 for r in rows {
                     w[*r] = 0.0;
                 }
-                let v = stat.evaluate(data, w, scratch);
+                let v = est.evaluate(w, scratch);
                 for r in rows {
                     w[*r] = base[*r];
                 }
@@ -174,23 +190,32 @@ pub fn jackknife(stat: &dyn Statistic, data: &Prepared, stop: &(dyn Fn() -> bool
     Ok(Some(Jackknife {
         values,
         multiplicity: vec![1.0; GROUPS],
-        kind: JackknifeKind::Grouped { groups: GROUPS },
+        kind: JackknifeKind::Grouped,
+        groups: Some(GROUPS),
     }))
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::engine::data::Sample;
+    use crate::engine::data::ColumnLayout;
     use crate::engine::interval::bca::acceleration;
     use crate::engine::statistic::location::Mean;
+    use crate::engine::statistic::ColumnStatistic;
     use rand_distr::{Distribution, StandardNormal};
 
     /// The mean without its closed form, to send it down the generic paths.
     struct OpaqueMean;
-    impl Statistic for OpaqueMean {
-        fn evaluate(&self, data: &Prepared, w: &[f64], s: &mut Scratch) -> f64 {
-            Mean.evaluate(data, w, s)
+    impl ColumnStatistic for OpaqueMean {
+        fn evaluate(&self, c: &ColumnLayout, w: &[f64], s: &mut Scratch) -> f64 {
+            Mean.evaluate(c, w, s)
+        }
+    }
+
+    fn bind(x: &[f64], stat: Box<dyn ColumnStatistic>) -> Estimator {
+        Estimator::Column {
+            data: ColumnLayout::rows(x),
+            stat,
         }
     }
 
@@ -208,12 +233,11 @@ mod tests {
                 (1.5 * z).exp()
             })
             .collect();
-        let data = Prepared::from_sample(&Sample::Column(x));
         let never = || false;
-        let exact = jackknife(&Mean, &data, &never).unwrap().unwrap();
+        let exact = jackknife(&bind(&x, Box::new(Mean)), &never).unwrap().unwrap();
         assert_eq!(exact.kind, JackknifeKind::ClosedForm);
-        let grouped = jackknife(&OpaqueMean, &data, &never).unwrap().unwrap();
-        assert_eq!(grouped.kind, JackknifeKind::Grouped { groups: GROUPS });
+        let grouped = jackknife(&bind(&x, Box::new(OpaqueMean)), &never).unwrap().unwrap();
+        assert_eq!((grouped.kind, grouped.groups), (JackknifeKind::Grouped, Some(GROUPS)));
         let a_exact = acceleration(&exact.values, &exact.multiplicity);
         let a_grouped = acceleration(&grouped.values, &grouped.multiplicity);
         assert!((a_exact - a_grouped).abs() < 0.008, "exact {a_exact} grouped {a_grouped}");
@@ -223,7 +247,6 @@ mod tests {
     #[test]
     fn a_stop_request_ends_the_generic_jackknife() {
         let x: Vec<f64> = (0..1500).map(|i| i as f64).collect();
-        let data = Prepared::from_sample(&Sample::Column(x));
-        assert_eq!(jackknife(&OpaqueMean, &data, &|| true).unwrap_err(), Stopped);
+        assert_eq!(jackknife(&bind(&x, Box::new(OpaqueMean)), &|| true).unwrap_err(), Stopped);
     }
 }

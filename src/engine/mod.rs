@@ -1,11 +1,29 @@
-//! The resampling engine: pure computation, with no knowledge of HTTP or JSON.
+//! The resampling engine: pure computation. It knows nothing of HTTP or JSON; its vocabulary
+//! (statistics, methods, schemes, codes, bounded numbers) describes itself through serde and
+//! utoipa derives ([`wire`]), from which the service derives its parser and its documents.
+//!
+//! A job flows one way: a [`job::Job`] (plain, validated values) is checked and laid out by
+//! [`driver::prepare`] (statistic bound to its [`data::Layout`], a [`scheme::Resampler`] per
+//! sample, the work estimate of [`cost`]), then run: [`jackknife`] for BCa, [`plan`] (fixed,
+//! auto, exact) drawing replicates through the [`executor`] (waves on the rayon pool, deadline,
+//! cancel) and the [`kernel`] (one replicate), then [`summary`] (intervals, with [`montecarlo`]
+//! errors), [`diagnostics`] and [`extras`].
 
+pub mod cost;
 pub mod data;
 pub mod diagnostics;
+pub mod distribution;
+pub mod driver;
+pub mod executor;
+pub mod extras;
 pub mod interval;
 pub mod jackknife;
+pub mod job;
+pub mod kernel;
 pub mod montecarlo;
+pub mod plan;
 pub mod rng;
-pub mod run;
 pub mod scheme;
 pub mod statistic;
+pub mod summary;
+pub mod wire;

@@ -10,12 +10,12 @@
 //!   normal replicates κ = 3 and the relative error is 1/√(2B) (common practice).
 //! - The bias (mean of replicates minus estimate): ŝ/√B.
 
-use crate::engine::interval::ReplicateDistribution;
+use crate::engine::distribution::ReplicateDistribution;
 
-/// Monte Carlo standard error of the p-quantile of sampled replicates.
+/// Monte Carlo standard error of the p-quantile of the replicates; zero for an enumeration.
 pub fn quantile_mc_error(dist: &ReplicateDistribution, p: f64) -> f64 {
     let b = dist.len() as f64;
-    if b < 2.0 {
+    if dist.is_exact() || b < 2.0 {
         return 0.0;
     }
     // At p = 0 or 1 the binomial spread vanishes; half a replicate's worth keeps the estimate
@@ -46,13 +46,6 @@ pub fn bias_mc_error(dist: &ReplicateDistribution) -> f64 {
     }
     dist.sd() / (dist.len() as f64).sqrt()
 }
-
-/// Default target for `"resamples": "auto"`: every endpoint's Monte Carlo error below this
-/// share of the standard error.
-pub const DEFAULT_TARGET_MC_ERROR: f64 = 0.02;
-
-/// First size of an `"auto"` run; it doubles from there.
-pub const AUTO_START: u64 = 1000;
 
 #[cfg(test)]
 mod tests {

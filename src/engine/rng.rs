@@ -16,29 +16,42 @@ use rand_chacha::ChaCha8Rng;
 /// Name of the generator, recorded in the reproducibility token.
 pub const GENERATOR: &str = "chacha8-stream-per-replicate-v1";
 
+/// The largest seed: 2^53 − 1, so that every JSON client (JavaScript's numbers included) carries
+/// it exactly.
+pub const MAX_SEED: u64 = (1 << 53) - 1;
+
+crate::whole_number! {
+    /// The seed of the random streams, from 0 to 2^53 − 1 (so that every JSON client carries it
+    /// exactly).
+    pub struct Seed where 0 <= x <= MAX_SEED, "a seed, a whole number from 0 to 2^53 − 1";
+}
+
 /// Domain tag mixed into the key so that streams of this engine never coincide with those of
 /// another use of the same 64-bit seed.
 const KEY_TAG: &[u8; 24] = b"bandsaw/replicate-key/v1";
 
-/// The 256-bit ChaCha key for a seed: the seed's little-endian bytes followed by a fixed tag.
-fn key(seed: u64) -> [u8; 32] {
+/// The 256-bit ChaCha key for a seed and a sample of the job: the seed's little-endian bytes
+/// followed by a fixed tag whose last byte is moved by the sample's number (0 leaves the tag as
+/// it is), so that each sample of a two-sample job draws from streams of its own.
+fn key(seed: u64, sample: u8) -> [u8; 32] {
     let mut k = [0u8; 32];
     k[..8].copy_from_slice(&seed.to_le_bytes());
     k[8..].copy_from_slice(KEY_TAG);
+    k[31] ^= sample;
     k
 }
 
-/// The random stream of replicate `index` under `seed`.
+/// The random stream of replicate `index` under `seed`, for the first (or only) sample.
 pub fn replicate_stream(seed: u64, index: u64) -> ChaCha8Rng {
-    let mut rng = ChaCha8Rng::from_seed(key(seed));
+    sample_stream(seed, 0, index)
+}
+
+/// The random stream of replicate `index` of sample number `sample` under `seed`.
+pub fn sample_stream(seed: u64, sample: u8, index: u64) -> ChaCha8Rng {
+    let mut rng = ChaCha8Rng::from_seed(key(seed, sample));
     rng.set_stream(index);
     rng
 }
-
-/// Stream numbers at or above this offset are reserved for auxiliary draws that are not
-/// replicates (none yet); replicate indices stay far below it.
-#[allow(dead_code)]
-pub const AUXILIARY_STREAM_BASE: u64 = 1 << 63;
 
 #[cfg(test)]
 mod tests {
@@ -51,10 +64,12 @@ mod tests {
         let mut s0b = replicate_stream(7, 0);
         let mut s1 = replicate_stream(7, 1);
         let mut t0 = replicate_stream(8, 0);
+        let mut other_sample = sample_stream(7, 1, 0);
         let x0 = s0.next_u64();
         assert_eq!(x0, s0b.next_u64());
         assert_ne!(x0, s1.next_u64());
         assert_ne!(x0, t0.next_u64());
+        assert_ne!(x0, other_sample.next_u64());
     }
 
     /// The first word of one stream, pinned: a change of generator, key layout or stream

@@ -2,7 +2,9 @@
 //!
 //! Davison & Hinkley (1997), §5.2, eq. 5.6: it treats θ* − θ̂ as a pivot for θ̂ − θ.
 
-use super::{Endpoints, ReplicateDistribution};
+use super::Endpoints;
+use crate::engine::distribution::ReplicateDistribution;
+use crate::engine::montecarlo::quantile_mc_error;
 
 pub fn interval(dist: &ReplicateDistribution, estimate: f64, level: f64) -> Endpoints {
     let alpha = 1.0 - level;
@@ -10,8 +12,8 @@ pub fn interval(dist: &ReplicateDistribution, estimate: f64, level: f64) -> Endp
     Endpoints {
         lower: 2.0 * estimate - dist.quantile(pu),
         upper: 2.0 * estimate - dist.quantile(pl),
-        lower_mc_error: dist.quantile_mc_error(pu),
-        upper_mc_error: dist.quantile_mc_error(pl),
+        lower_mc_error: quantile_mc_error(dist, pu),
+        upper_mc_error: quantile_mc_error(dist, pl),
         quantile_levels: Some((pu, pl)),
     }
 }

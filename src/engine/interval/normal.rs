@@ -4,7 +4,8 @@
 //! Davison & Hinkley (1997), §5.2, eq. 5.5; Efron & Tibshirani (1993), §13.2 ("standard"
 //! interval, here with the bootstrap bias removed as Davison & Hinkley do).
 
-use super::{normal_dist, Endpoints, ReplicateDistribution};
+use super::Endpoints;
+use crate::engine::distribution::{normal_dist, ReplicateDistribution};
 
 /// `bias_mc` and `se_mc` are the Monte Carlo standard errors of the bias and of the standard
 /// error. The endpoint θ̂ − b ∓ z·se has Monte Carlo variance var(b) + z²·var(se) ± 2z·cov(b, se),

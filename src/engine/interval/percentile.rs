@@ -5,7 +5,9 @@
 //! (1993), ch. 13. Transformation-respecting, but first-order accurate only: it undercovers for
 //! small skewed samples, where BCa or studentized do better.
 
-use super::{Endpoints, ReplicateDistribution};
+use super::Endpoints;
+use crate::engine::distribution::ReplicateDistribution;
+use crate::engine::montecarlo::quantile_mc_error;
 
 pub fn interval(dist: &ReplicateDistribution, level: f64) -> Endpoints {
     let alpha = 1.0 - level;
@@ -13,8 +15,8 @@ pub fn interval(dist: &ReplicateDistribution, level: f64) -> Endpoints {
     Endpoints {
         lower: dist.quantile(pl),
         upper: dist.quantile(pu),
-        lower_mc_error: dist.quantile_mc_error(pl),
-        upper_mc_error: dist.quantile_mc_error(pu),
+        lower_mc_error: quantile_mc_error(dist, pl),
+        upper_mc_error: quantile_mc_error(dist, pu),
         quantile_levels: Some((pl, pu)),
     }
 }

@@ -8,7 +8,9 @@
 //! outer bootstrap standard error when se* is nested. Second-order accurate, but sensitive to a
 //! poor se*.
 
-use super::{Endpoints, ReplicateDistribution};
+use super::Endpoints;
+use crate::engine::distribution::ReplicateDistribution;
+use crate::engine::montecarlo::quantile_mc_error;
 
 /// `t` is the distribution of the studentized replicates; `se_hat` the standard error that
 /// scales it back.
@@ -18,8 +20,8 @@ pub fn interval(t: &ReplicateDistribution, estimate: f64, se_hat: f64, level: f6
     Endpoints {
         lower: estimate - se_hat * t.quantile(pu),
         upper: estimate - se_hat * t.quantile(pl),
-        lower_mc_error: se_hat * t.quantile_mc_error(pu),
-        upper_mc_error: se_hat * t.quantile_mc_error(pl),
+        lower_mc_error: se_hat * quantile_mc_error(t, pu),
+        upper_mc_error: se_hat * quantile_mc_error(t, pl),
         quantile_levels: Some((pu, pl)),
     }
 }

@@ -6,10 +6,17 @@
 //! (C(2n − 1, n) for n raw rows: 126 for n = 5, 92 378 for n = 10), so this is for small
 //! samples only, where it removes Monte Carlo error entirely.
 
+use rand_chacha::ChaCha8Rng;
 use statrs::function::factorial::ln_factorial;
+
+use super::{iid, Resampler, SchemeError, Within};
+use crate::engine::statistic::Units;
 
 /// The number of distinct resamples, or `None` if it exceeds `u64`.
 pub fn count(size: u64, units: usize) -> Option<u64> {
+    if units == 0 {
+        return Some(u64::from(size == 0));
+    }
     // C(size + units − 1, units − 1), multiplied up exactly in u128.
     let k = (units as u64).saturating_sub(1).min(size);
     let top = size + units as u64 - 1;
@@ -23,37 +30,92 @@ pub fn count(size: u64, units: usize) -> Option<u64> {
     Some(c as u64)
 }
 
-/// Visits every composition of `size` into `mass.len()` parts with its probability, in a fixed
-/// (reverse lexicographic) order. `visit` receives the weights and the probability and returns
-/// false to stop early (deadline, cancellation).
-pub fn enumerate(size: u64, mass: &[f64], total: f64, mut visit: impl FnMut(&[f64], f64) -> bool) {
-    let m = mass.len();
-    if m == 0 {
-        return;
+/// Enumeration of every distinct resample of one sample. Replicate `index` is the index-th
+/// composition of the sample size over the units in descending lexicographic order (the first
+/// puts every draw on the first unit), found directly by unranking, so replicates can be
+/// computed in any order and in parallel like sampled ones.
+pub struct Exact {
+    size: u64,
+    /// `table[u][s]`: compositions of s draws over u units, for unranking.
+    table: Vec<Vec<u64>>,
+    ln_p: Vec<f64>,
+    ln_size_factorial: f64,
+    count: u64,
+    total: f64,
+}
+
+impl Exact {
+    /// The enumeration of a sample with these units, when it has at most `limit` resamples.
+    pub fn new(units: Units<'_>, limit: u64) -> Result<Exact, SchemeError> {
+        let size = units.total as u64;
+        let m = units.base.len();
+        let whole = count(size, m);
+        match whole {
+            Some(c) if c <= limit => Ok(Exact {
+                size,
+                table: (0..m)
+                    .map(|u| (0..=size).map(|s| count(s, u).unwrap_or(u64::MAX)).collect())
+                    .collect(),
+                ln_p: units.base.iter().map(|c| (c / units.total).ln()).collect(),
+                ln_size_factorial: ln_factorial(size),
+                count: c,
+                total: units.total,
+            }),
+            _ => Err(SchemeError::TooManyToEnumerate { count: whole, limit }),
+        }
     }
-    let ln_p: Vec<f64> = mass.iter().map(|c| (c / total).ln()).collect();
-    let ln_n_fact = ln_factorial(size);
-    let mut k = vec![0u64; m];
-    k[0] = size;
-    let mut w = vec![0.0; m];
-    loop {
-        let mut lp = ln_n_fact;
-        for j in 0..m {
-            w[j] = k[j] as f64;
-            if k[j] > 0 {
-                lp += k[j] as f64 * ln_p[j] - ln_factorial(k[j]);
+
+    /// Write composition `index` into `w`.
+    fn unrank(&self, mut index: u64, w: &mut [f64]) {
+        let m = w.len();
+        let mut left = self.size;
+        for (j, wj) in w.iter_mut().enumerate().take(m - 1) {
+            // Compositions of the remaining `left` draws over units j.. whose first part is k:
+            // those of left − k over the m − j − 1 units after it. Larger k come first.
+            let mut k = left;
+            loop {
+                let c = self.table[m - j - 1][(left - k) as usize];
+                if index < c {
+                    break;
+                }
+                index -= c;
+                k -= 1;
+            }
+            *wj = k as f64;
+            left -= k;
+        }
+        w[m - 1] = left as f64;
+    }
+
+    /// The multinomial probability N!/∏k_j! · ∏(c_j/N)^{k_j} of the composition in `w`.
+    fn probability(&self, w: &[f64]) -> f64 {
+        let mut lp = self.ln_size_factorial;
+        for (k, ln_p) in w.iter().zip(&self.ln_p) {
+            if *k > 0.0 {
+                lp += k * ln_p - ln_factorial(*k as u64);
             }
         }
-        if !visit(&w, lp.exp()) {
-            return;
-        }
-        // Next composition: move one unit of mass rightwards from the rightmost non-last
-        // non-empty part, gathering whatever sat in the last part.
-        let t = k[m - 1];
-        k[m - 1] = 0;
-        let Some(j) = (0..m - 1).rev().find(|&j| k[j] > 0) else { return };
-        k[j] -= 1;
-        k[j + 1] = t + 1;
+        lp.exp()
+    }
+}
+
+impl Resampler for Exact {
+    fn draw(&self, index: u64, _: &mut ChaCha8Rng, w: &mut [f64]) -> Option<f64> {
+        self.unrank(index, w);
+        Some(self.probability(w))
+    }
+
+    /// The nested bootstrap of an enumerated resample is an `iid` one (it is still random).
+    fn prepare_within(&self, outer: &[f64], within: &mut Within) {
+        iid::prepare_within(self.total, outer, within);
+    }
+
+    fn draw_within(&self, outer: &[f64], within: &Within, rng: &mut ChaCha8Rng, w: &mut [f64]) {
+        iid::draw_within(self.total, outer, within, rng, w);
+    }
+
+    fn enumerated(&self) -> Option<u64> {
+        Some(self.count)
     }
 }
 
@@ -63,24 +125,54 @@ mod tests {
 
     #[test]
     fn counts_match_the_binomial_coefficients() {
-        // REFERENCES.md: C(2n − 1, n) is 126 for n = 5, 6435 for 8, 92 378 for 10, 1 352 078 for 12.
+        // docs/references.md: C(2n − 1, n) is 126 for n = 5, 6435 for 8, 92 378 for 10, 1 352 078 for 12.
         assert_eq!(count(5, 5), Some(126));
         assert_eq!(count(8, 8), Some(6435));
         assert_eq!(count(10, 10), Some(92_378));
         assert_eq!(count(12, 12), Some(1_352_078));
     }
 
+    fn units(base: &[f64]) -> Units<'_> {
+        Units {
+            base,
+            total: base.iter().sum(),
+            raw: base.iter().all(|b| *b == 1.0),
+        }
+    }
+
     #[test]
-    fn enumeration_visits_each_once_and_probabilities_add_to_one() {
-        let mut seen = 0u64;
+    fn unranking_visits_each_composition_once_in_descending_order() {
+        let base = [2.0, 1.0, 3.0, 1.0];
+        let e = Exact::new(units(&base), 1000).unwrap();
+        assert_eq!(e.enumerated(), count(7, 4));
+        let mut rng = crate::engine::rng::replicate_stream(0, 0);
+        let mut previous: Option<Vec<f64>> = None;
         let mut total_p = 0.0;
-        enumerate(6, &[1.0; 6], 6.0, |w, p| {
-            assert_eq!(w.iter().sum::<f64>(), 6.0);
-            seen += 1;
-            total_p += p;
-            true
-        });
-        assert_eq!(seen, count(6, 6).unwrap());
-        assert!((total_p - 1.0).abs() < 1e-12);
+        for i in 0..e.count {
+            let mut w = vec![0.0; 4];
+            total_p += e.draw(i, &mut rng, &mut w).unwrap();
+            assert_eq!(w.iter().sum::<f64>(), 7.0);
+            if let Some(p) = &previous {
+                assert!(
+                    w.iter().zip(p).find(|(a, b)| a != b).is_some_and(|(a, b)| a < b),
+                    "{w:?} after {p:?}"
+                );
+            }
+            previous = Some(w);
+        }
+        assert_eq!(previous.unwrap(), [0.0, 0.0, 0.0, 7.0], "the last composition");
+        // The multinomial probabilities add up to one (rounding of about 1e-15 per term).
+        assert!((total_p - 1.0).abs() < 1e-12, "{total_p}");
+    }
+
+    #[test]
+    fn too_many_resamples_are_refused_with_their_count() {
+        assert_eq!(
+            Exact::new(units(&[1.0; 12]), 1_000_000).err(),
+            Some(SchemeError::TooManyToEnumerate {
+                count: Some(1_352_078),
+                limit: 1_000_000
+            })
+        );
     }
 }

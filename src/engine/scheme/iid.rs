@@ -4,6 +4,79 @@ use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Binomial, Distribution};
 
+use super::{Resampler, Within};
+use crate::engine::statistic::Units;
+
+/// Below this many observations per unit, a nested resample is drawn from the resample's rows
+/// written out (O(n) uniform draws); above it, by a multinomial over the units (O(units)
+/// binomial draws), which is cheaper and bounded in memory for aggregated data with large counts.
+const EXPAND_BELOW: u64 = 8;
+
+/// `iid` resampling of one sample.
+pub struct Iid {
+    base: Vec<f64>,
+    total: f64,
+    raw: bool,
+}
+
+impl Iid {
+    pub fn new(units: Units<'_>) -> Self {
+        Iid {
+            base: units.base.to_vec(),
+            total: units.total,
+            raw: units.raw,
+        }
+    }
+}
+
+impl Resampler for Iid {
+    fn draw(&self, _: u64, rng: &mut ChaCha8Rng, w: &mut [f64]) -> Option<f64> {
+        w.fill(0.0);
+        if self.raw {
+            draw_rows(rng, w);
+        } else {
+            multinomial(rng, self.total as u64, &self.base, self.total, w);
+        }
+        None
+    }
+
+    fn prepare_within(&self, outer: &[f64], within: &mut Within) {
+        prepare_within(self.total, outer, within);
+    }
+
+    fn draw_within(&self, outer: &[f64], within: &Within, rng: &mut ChaCha8Rng, w: &mut [f64]) {
+        draw_within(self.total, outer, within, rng, w);
+    }
+}
+
+/// Write out the rows of the resample `outer` (weights over units) when they are whole and few.
+pub fn prepare_within(size: f64, outer: &[f64], within: &mut Within) {
+    within.rows.clear();
+    within.total = outer.iter().sum();
+    within.expanded = size.round() as u64 <= EXPAND_BELOW * outer.len() as u64 && outer.iter().all(|x| x.fract() == 0.0);
+    if within.expanded {
+        for (j, c) in outer.iter().enumerate() {
+            for _ in 0..(*c as u64) {
+                within.rows.push(j as u32);
+            }
+        }
+    }
+}
+
+/// An `iid` resample of size `size` from the resample `outer`: drawn from its rows written out
+/// when [`prepare_within`] wrote them, else as a multinomial over the units.
+pub fn draw_within(size: f64, outer: &[f64], within: &Within, rng: &mut ChaCha8Rng, w: &mut [f64]) {
+    w.fill(0.0);
+    if !within.expanded {
+        multinomial(rng, size.round() as u64, outer, within.total, w);
+        return;
+    }
+    let m = within.rows.len();
+    for _ in 0..m {
+        w[within.rows[rng.random_range(0..m)] as usize] += 1.0;
+    }
+}
+
 /// n rows drawn uniformly with replacement: `w[i]` becomes how often row i was drawn.
 /// `w` must hold n zeros.
 pub fn draw_rows(rng: &mut ChaCha8Rng, w: &mut [f64]) {

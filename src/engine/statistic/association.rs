@@ -1,71 +1,166 @@
 //! Statistics over named columns resampled together as rows: ratio of sums, Pearson and
 //! Spearman correlation, least-squares slope.
 
-use super::{resolve_columns, weighted_moments2, DataLocation, DataProblem, Scratch, Statistic, StatisticSpec};
-use crate::engine::data::{Prepared, RowTable};
+use serde::{Deserialize, Serialize};
+use utoipa::ToSchema;
 
-fn table(data: &Prepared) -> &RowTable {
-    match data {
-        Prepared::Rows(t) => t,
-        Prepared::One(_) => unreachable!("association statistics are built for named columns only"),
+use super::{weighted_moments2, Scratch, TableSpec, TableStatistic};
+use crate::engine::data::{DataError, TableLayout};
+
+/// The name of a column of the data (`data.columns`), not empty.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(try_from = "String", into = "String")]
+pub struct ColumnName(String);
+
+impl ColumnName {
+    pub fn as_str(&self) -> &str {
+        &self.0
     }
 }
 
-pub fn build(spec: &StatisticSpec, t: &RowTable) -> Result<Box<dyn Statistic>, Vec<DataProblem>> {
-    let cols = resolve_columns(spec, t)?;
-    let index = |name: &str| t.names.iter().position(|n| n == name).expect("resolved above");
-    let mut problems = Vec::new();
-    let constant = |c: &[f64]| c.iter().all(|v| *v == c[0]);
-    if t.rows < 2 {
-        problems.push(DataProblem::new(
-            DataLocation::Whole,
-            format!("{} needs at least 2 rows", spec.name()),
-        ));
-        return Err(problems);
-    }
-    let stat: Box<dyn Statistic> = match spec {
-        StatisticSpec::Ratio { numerator, denominator } => {
-            if cols[1].iter().sum::<f64>() == 0.0 {
-                problems.push(DataProblem::new(
-                    DataLocation::Column(denominator.clone()),
-                    "the denominator column sums to 0, so the ratio of sums is undefined",
-                ));
-            }
-            Box::new(Ratio {
-                x: index(numerator),
-                y: index(denominator),
+impl TryFrom<String> for ColumnName {
+    type Error = crate::engine::wire::OutOfRange;
+    fn try_from(s: String) -> Result<Self, Self::Error> {
+        if s.is_empty() {
+            Err(crate::engine::wire::OutOfRange {
+                what: "the name of a column of the data, not empty",
+                got: "\"\"".into(),
             })
+        } else {
+            Ok(ColumnName(s))
         }
-        StatisticSpec::Correlation { x, y, spearman } => {
-            for (name, c) in [(x, cols[0]), (y, cols[1])] {
-                if constant(c) {
-                    problems.push(DataProblem::new(
-                        DataLocation::Column(name.clone()),
-                        "this column is constant, so its correlation with anything is undefined",
-                    ));
-                }
-            }
-            if *spearman {
-                Box::new(Spearman::new(cols[0], cols[1], index(x), index(y)))
-            } else {
-                Box::new(Pearson { x: index(x), y: index(y) })
-            }
+    }
+}
+
+impl From<ColumnName> for String {
+    fn from(c: ColumnName) -> String {
+        c.0
+    }
+}
+
+impl utoipa::PartialSchema for ColumnName {
+    fn schema() -> utoipa::openapi::RefOr<utoipa::openapi::schema::Schema> {
+        utoipa::openapi::ObjectBuilder::new()
+            .schema_type(utoipa::openapi::schema::Type::String)
+            .min_length(Some(1))
+            .description(Some("The name of a column of the data (`data.columns`)."))
+            .into()
+    }
+}
+
+impl utoipa::ToSchema for ColumnName {}
+
+fn constant(c: &[f64]) -> bool {
+    c.iter().all(|v| *v == c[0])
+}
+
+/// Ratio of column sums (sum over sum); needs named columns.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct RatioSpec {
+    /// The column summed on top.
+    pub numerator: ColumnName,
+    /// The column summed below.
+    pub denominator: ColumnName,
+}
+
+impl TableSpec for RatioSpec {
+    const ANALYTIC_SE: bool = true;
+    fn columns(&self) -> [(&'static str, &str); 2] {
+        [("numerator", self.numerator.as_str()), ("denominator", self.denominator.as_str())]
+    }
+    fn build(&self, t: &TableLayout, [x, y]: [usize; 2]) -> Result<Box<dyn TableStatistic>, Vec<DataError>> {
+        if t.columns[y].iter().sum::<f64>() == 0.0 {
+            return Err(vec![DataError::ZeroSum {
+                column: self.denominator.as_str().to_string(),
+            }]);
         }
-        StatisticSpec::Slope { x, y } => {
-            if constant(cols[0]) {
-                problems.push(DataProblem::new(
-                    DataLocation::Column(x.clone()),
-                    "the x column is constant, so the least-squares slope is undefined",
-                ));
-            }
-            Box::new(Slope { x: index(x), y: index(y) })
+        Ok(Box::new(Ratio { x, y }))
+    }
+}
+
+crate::wire_enum! {
+    /// Which correlation: `pearson` (product-moment) or `spearman` (of ranks).
+    pub enum CorrelationKind default Pearson {
+        /// Pearson's product-moment correlation.
+        Pearson = "pearson",
+        /// Spearman's rank correlation.
+        Spearman = "spearman",
+    }
+}
+
+/// Correlation of two columns; needs named columns.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct CorrelationSpec {
+    /// The first column.
+    pub x: ColumnName,
+    /// The second column.
+    pub y: ColumnName,
+    /// `pearson` or `spearman`. Default `pearson`.
+    #[serde(default)]
+    #[schema(inline, default = "pearson")]
+    pub kind: CorrelationKind,
+}
+
+impl TableSpec for CorrelationSpec {
+    fn columns(&self) -> [(&'static str, &str); 2] {
+        [("x", self.x.as_str()), ("y", self.y.as_str())]
+    }
+    fn build(&self, t: &TableLayout, [x, y]: [usize; 2]) -> Result<Box<dyn TableStatistic>, Vec<DataError>> {
+        let problems: Vec<DataError> = [(&self.x, x), (&self.y, y)]
+            .into_iter()
+            .filter(|(_, i)| constant(&t.columns[*i]))
+            .map(|(name, _)| DataError::ConstantColumn {
+                column: name.as_str().to_string(),
+                why: "its correlation with anything is undefined",
+            })
+            .collect();
+        if !problems.is_empty() {
+            return Err(problems);
         }
-        _ => unreachable!("one-column statistics are built elsewhere"),
-    };
-    if problems.is_empty() {
-        Ok(stat)
-    } else {
-        Err(problems)
+        Ok(match self.kind {
+            CorrelationKind::Pearson => Box::new(Pearson { x, y }),
+            CorrelationKind::Spearman => Box::new(Spearman::new(&t.columns[x], &t.columns[y], x, y)),
+        })
+    }
+    fn relative_cost(&self) -> f64 {
+        match self.kind {
+            CorrelationKind::Pearson => 4.0,
+            CorrelationKind::Spearman => 12.0,
+        }
+    }
+    fn closed_jackknife(&self) -> bool {
+        self.kind == CorrelationKind::Pearson
+    }
+}
+
+/// Least-squares slope of y on x; needs named columns.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct SlopeSpec {
+    /// The regressor column.
+    pub x: ColumnName,
+    /// The response column.
+    pub y: ColumnName,
+}
+
+impl TableSpec for SlopeSpec {
+    const ANALYTIC_SE: bool = true;
+    fn columns(&self) -> [(&'static str, &str); 2] {
+        [("x", self.x.as_str()), ("y", self.y.as_str())]
+    }
+    fn build(&self, t: &TableLayout, [x, y]: [usize; 2]) -> Result<Box<dyn TableStatistic>, Vec<DataError>> {
+        if constant(&t.columns[x]) {
+            return Err(vec![DataError::ConstantColumn {
+                column: self.x.as_str().to_string(),
+                why: "the least-squares slope is undefined",
+            }]);
+        }
+        Ok(Box::new(Slope { x, y }))
+    }
+    fn relative_cost(&self) -> f64 {
+        4.0
     }
 }
 
@@ -99,9 +194,8 @@ pub struct Ratio {
     y: usize,
 }
 
-impl Statistic for Ratio {
-    fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
-        let t = table(data);
+impl TableStatistic for Ratio {
+    fn evaluate(&self, t: &TableLayout, w: &[f64], _: &mut Scratch) -> f64 {
         let (x, y) = (&t.columns[self.x], &t.columns[self.y]);
         let (mut sx, mut sy) = (0.0, 0.0);
         for i in 0..w.len() {
@@ -110,8 +204,7 @@ impl Statistic for Ratio {
         }
         sx / sy
     }
-    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        let t = table(data);
+    fn jackknife_closed(&self, t: &TableLayout) -> Option<Vec<f64>> {
         let (x, y) = (&t.columns[self.x], &t.columns[self.y]);
         let sx: f64 = x.iter().sum();
         let sy: f64 = y.iter().sum();
@@ -119,8 +212,7 @@ impl Statistic for Ratio {
     }
     /// Delta method (linearisation) for a ratio of means: se(r) = √(Σw(x − r·y)²/W) / (|ȳ|√W)
     /// (Cochran, W. G. (1977), Sampling Techniques, 3rd ed., §6.3).
-    fn analytic_se(&self, data: &Prepared, w: &[f64]) -> Option<f64> {
-        let t = table(data);
+    fn analytic_se(&self, t: &TableLayout, w: &[f64]) -> Option<f64> {
         let (x, y) = (&t.columns[self.x], &t.columns[self.y]);
         let (mut sw, mut sx, mut sy) = (0.0, 0.0, 0.0);
         for i in 0..w.len() {
@@ -136,9 +228,6 @@ impl Statistic for Ratio {
         }
         Some((ss / sw).sqrt() / ((sy / sw).abs() * sw.sqrt()))
     }
-    fn has_analytic_se(&self) -> bool {
-        true
-    }
 }
 
 /// Pearson's product-moment correlation.
@@ -147,14 +236,12 @@ pub struct Pearson {
     y: usize,
 }
 
-impl Statistic for Pearson {
-    fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
-        let t = table(data);
+impl TableStatistic for Pearson {
+    fn evaluate(&self, t: &TableLayout, w: &[f64], _: &mut Scratch) -> f64 {
         let (_, _, _, sxx, syy, sxy) = weighted_moments2(&t.columns[self.x], &t.columns[self.y], w);
         sxy / (sxx.sqrt() * syy.sqrt())
     }
-    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        let t = table(data);
+    fn jackknife_closed(&self, t: &TableLayout) -> Option<Vec<f64>> {
         Some(
             jackknife_sums(&t.columns[self.x], &t.columns[self.y])
                 .into_iter()
@@ -170,14 +257,12 @@ pub struct Slope {
     y: usize,
 }
 
-impl Statistic for Slope {
-    fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
-        let t = table(data);
+impl TableStatistic for Slope {
+    fn evaluate(&self, t: &TableLayout, w: &[f64], _: &mut Scratch) -> f64 {
         let (_, _, _, sxx, _, sxy) = weighted_moments2(&t.columns[self.x], &t.columns[self.y], w);
         sxy / sxx
     }
-    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        let t = table(data);
+    fn jackknife_closed(&self, t: &TableLayout) -> Option<Vec<f64>> {
         Some(
             jackknife_sums(&t.columns[self.x], &t.columns[self.y])
                 .into_iter()
@@ -187,8 +272,7 @@ impl Statistic for Slope {
     }
     /// Heteroscedasticity-consistent (HC0) standard error, √(Σw·dx²·e²)/Sxx (White, H. (1980),
     /// Econometrica 48(4)), which stays valid when the spread of y changes with x.
-    fn analytic_se(&self, data: &Prepared, w: &[f64]) -> Option<f64> {
-        let t = table(data);
+    fn analytic_se(&self, t: &TableLayout, w: &[f64]) -> Option<f64> {
         let (x, y) = (&t.columns[self.x], &t.columns[self.y]);
         let (_, mx, my, sxx, _, sxy) = weighted_moments2(x, y, w);
         let b = sxy / sxx;
@@ -199,9 +283,6 @@ impl Statistic for Slope {
             s += w[i] * dx * dx * e * e;
         }
         Some(s.sqrt() / sxx)
-    }
-    fn has_analytic_se(&self) -> bool {
-        true
     }
 }
 
@@ -253,9 +334,8 @@ fn midranks(c: &[f64], order: &[u32], w: &[f64], out: &mut Vec<f64>) {
     }
 }
 
-impl Statistic for Spearman {
-    fn evaluate(&self, data: &Prepared, w: &[f64], scratch: &mut Scratch) -> f64 {
-        let t = table(data);
+impl TableStatistic for Spearman {
+    fn evaluate(&self, t: &TableLayout, w: &[f64], scratch: &mut Scratch) -> f64 {
         let mut a = std::mem::take(&mut scratch.a);
         let mut b = std::mem::take(&mut scratch.b);
         midranks(&t.columns[self.x], &self.order_x, w, &mut a);
@@ -270,9 +350,16 @@ impl Statistic for Spearman {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::engine::data::Sample;
+    use crate::engine::data::{Layout, Sample};
 
-    fn law_school() -> Prepared {
+    fn table(sample: Sample) -> TableLayout {
+        match Layout::of(&sample) {
+            Layout::Table(t) => t,
+            Layout::Column(_) => panic!("columns give a table"),
+        }
+    }
+
+    fn law_school() -> TableLayout {
         // Efron & Tibshirani (1993), Table 3.1.
         let lsat = vec![
             576., 635., 558., 578., 666., 580., 555., 661., 651., 605., 653., 575., 545., 572., 594.,
@@ -280,30 +367,30 @@ mod tests {
         let gpa = vec![
             3.39, 3.30, 2.81, 3.03, 3.44, 3.07, 3.00, 3.43, 3.36, 3.13, 3.12, 2.74, 2.76, 2.88, 2.96,
         ];
-        Prepared::from_sample(&Sample::Columns {
-            names: vec!["lsat".into(), "gpa".into()],
-            columns: vec![lsat, gpa],
-        })
+        table(Sample::columns(vec!["lsat".into(), "gpa".into()], vec![lsat, gpa]).unwrap())
     }
 
     #[test]
     fn law_school_correlation_is_0_7764() {
-        // REFERENCES.md: Pearson correlation 0.7764 (Efron & Tibshirani 1993, §3).
+        // docs/references.md: Pearson correlation 0.7764 (Efron & Tibshirani 1993, §3).
         let d = law_school();
-        let r = Pearson { x: 0, y: 1 }.evaluate(&d, &d.base_weights(), &mut Scratch::default());
+        let r = Pearson { x: 0, y: 1 }.evaluate(&d, &d.base.clone(), &mut Scratch::default());
         assert!((r - 0.7764).abs() < 5e-5, "{r}");
     }
 
     #[test]
     fn spearman_of_monotone_data_is_one_and_closed_jackknives_match() {
-        let d = Prepared::from_sample(&Sample::Columns {
-            names: vec!["x".into(), "y".into()],
-            columns: vec![vec![1., 2., 3., 4., 5.], vec![1., 4., 9., 16., 100.]],
-        });
+        let d = table(
+            Sample::columns(
+                vec!["x".into(), "y".into()],
+                vec![vec![1., 2., 3., 4., 5.], vec![1., 4., 9., 16., 100.]],
+            )
+            .unwrap(),
+        );
         let s = Spearman::new(&[1., 2., 3., 4., 5.], &[1., 4., 9., 16., 100.], 0, 1);
-        assert!((s.evaluate(&d, &d.base_weights(), &mut Scratch::default()) - 1.0).abs() < 1e-12);
+        assert!((s.evaluate(&d, &d.base.clone(), &mut Scratch::default()) - 1.0).abs() < 1e-12);
         let d = law_school();
-        let stats: Vec<Box<dyn Statistic>> = vec![
+        let stats: Vec<Box<dyn TableStatistic>> = vec![
             Box::new(Pearson { x: 0, y: 1 }),
             Box::new(Slope { x: 0, y: 1 }),
             Box::new(Ratio { x: 1, y: 0 }),

@@ -1,19 +1,96 @@
 //! Location statistics: mean, trimmed mean, geometric mean, proportion.
 
-use super::{Scratch, Statistic};
-use crate::engine::data::{Prepared, SortedColumn};
+use serde::{Deserialize, Serialize};
+use utoipa::ToSchema;
 
-fn one(data: &Prepared) -> &SortedColumn {
-    match data {
-        Prepared::One(c) => c,
-        Prepared::Rows(_) => unreachable!("location statistics are built for one column only"),
+use super::{ColumnSpec, ColumnStatistic, Scratch};
+use crate::engine::data::{ColumnLayout, DataError};
+
+/// Arithmetic mean.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct MeanSpec {}
+
+impl ColumnSpec for MeanSpec {
+    const ANALYTIC_SE: bool = true;
+    fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+        Ok(Box::new(Mean))
     }
 }
 
-/// Σ w x / Σ w over a one-column sample.
-pub(crate) fn weighted_mean_one(data: &Prepared, w: &[f64]) -> f64 {
-    let c = one(data);
-    weighted_mean(&c.x, w)
+crate::bounded_number! {
+    /// The share of observations cut from each end, from 0 up to (not including) 0.5.
+    pub struct TrimShare where 0.0 <= x < 0.5, "a share from 0 up to (not including) 0.5";
+}
+
+/// The default trim: 10 % from each end (common practice).
+pub const DEFAULT_TRIM: f64 = 0.1;
+
+fn default_trim() -> TrimShare {
+    TrimShare::new(DEFAULT_TRIM).expect("in range")
+}
+
+/// Mean after cutting ⌊trim·n⌋ observations from each end.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct TrimmedMeanSpec {
+    /// Share cut from each end, in [0, 0.5). Default 0.1.
+    #[serde(default = "default_trim")]
+    #[schema(default = default_trim)]
+    pub trim: TrimShare,
+}
+
+impl ColumnSpec for TrimmedMeanSpec {
+    fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+        Ok(Box::new(TrimmedMean { trim: self.trim.get() }))
+    }
+    fn relative_cost(&self) -> f64 {
+        1.5
+    }
+}
+
+/// Exp of the mean log; positive data.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct GeometricMeanSpec {}
+
+impl ColumnSpec for GeometricMeanSpec {
+    const ANALYTIC_SE: bool = true;
+    fn build(&self, c: &ColumnLayout, values: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+        let problems: Vec<DataError> = values
+            .iter()
+            .enumerate()
+            .filter(|(_, v)| **v <= 0.0)
+            .map(|(index, value)| DataError::NotPositive { index, value: *value })
+            .collect();
+        if !problems.is_empty() {
+            return Err(problems);
+        }
+        Ok(Box::new(GeometricMean {
+            ln_x: c.x.iter().map(|v| v.ln()).collect(),
+        }))
+    }
+}
+
+/// Share of values equal to 1 in data of 0s and 1s.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct ProportionSpec {}
+
+impl ColumnSpec for ProportionSpec {
+    const ANALYTIC_SE: bool = true;
+    fn build(&self, _: &ColumnLayout, values: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+        let problems: Vec<DataError> = values
+            .iter()
+            .enumerate()
+            .filter(|(_, v)| **v != 0.0 && **v != 1.0)
+            .map(|(index, value)| DataError::NotBinary { index, value: *value })
+            .collect();
+        if !problems.is_empty() {
+            return Err(problems);
+        }
+        Ok(Box::new(Proportion))
+    }
 }
 
 pub(crate) fn weighted_mean(x: &[f64], w: &[f64]) -> f64 {
@@ -49,44 +126,35 @@ pub(crate) fn jackknife_means(x: &[f64], base: &[f64]) -> Vec<f64> {
 /// The arithmetic mean.
 pub struct Mean;
 
-impl Statistic for Mean {
-    fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
-        weighted_mean_one(data, w)
+impl ColumnStatistic for Mean {
+    fn evaluate(&self, c: &ColumnLayout, w: &[f64], _: &mut Scratch) -> f64 {
+        weighted_mean(&c.x, w)
     }
-    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        let c = one(data);
+    fn jackknife_closed(&self, c: &ColumnLayout) -> Option<Vec<f64>> {
         Some(jackknife_means(&c.x, &c.base))
     }
     /// σ̂/√n with the plug-in σ̂ (Efron & Tibshirani 1993, eq. 5.4 and ch. 12).
-    fn analytic_se(&self, data: &Prepared, w: &[f64]) -> Option<f64> {
-        let c = one(data);
+    fn analytic_se(&self, c: &ColumnLayout, w: &[f64]) -> Option<f64> {
         let total: f64 = w.iter().sum();
         Some((weighted_plugin_variance(&c.x, w) / total).sqrt())
-    }
-    fn has_analytic_se(&self) -> bool {
-        true
     }
 }
 
 /// The share of values equal to 1 in data of 0s and 1s.
 pub struct Proportion;
 
-impl Statistic for Proportion {
-    fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
-        weighted_mean_one(data, w)
+impl ColumnStatistic for Proportion {
+    fn evaluate(&self, c: &ColumnLayout, w: &[f64], _: &mut Scratch) -> f64 {
+        weighted_mean(&c.x, w)
     }
-    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        let c = one(data);
+    fn jackknife_closed(&self, c: &ColumnLayout) -> Option<Vec<f64>> {
         Some(jackknife_means(&c.x, &c.base))
     }
     /// √(p̂(1 − p̂)/n), the binomial standard error.
-    fn analytic_se(&self, data: &Prepared, w: &[f64]) -> Option<f64> {
-        let p = weighted_mean_one(data, w);
+    fn analytic_se(&self, c: &ColumnLayout, w: &[f64]) -> Option<f64> {
+        let p = weighted_mean(&c.x, w);
         let total: f64 = w.iter().sum();
         Some((p * (1.0 - p) / total).sqrt())
-    }
-    fn has_analytic_se(&self) -> bool {
-        true
     }
 }
 
@@ -95,30 +163,18 @@ pub struct GeometricMean {
     ln_x: Vec<f64>,
 }
 
-impl GeometricMean {
-    pub fn new(data: &Prepared) -> Self {
-        GeometricMean {
-            ln_x: one(data).x.iter().map(|v| v.ln()).collect(),
-        }
-    }
-}
-
-impl Statistic for GeometricMean {
-    fn evaluate(&self, _: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
+impl ColumnStatistic for GeometricMean {
+    fn evaluate(&self, _: &ColumnLayout, w: &[f64], _: &mut Scratch) -> f64 {
         weighted_mean(&self.ln_x, w).exp()
     }
-    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        let c = one(data);
+    fn jackknife_closed(&self, c: &ColumnLayout) -> Option<Vec<f64>> {
         Some(jackknife_means(&self.ln_x, &c.base).into_iter().map(f64::exp).collect())
     }
     /// Delta method: g · σ̂(ln x)/√n.
-    fn analytic_se(&self, _: &Prepared, w: &[f64]) -> Option<f64> {
+    fn analytic_se(&self, _: &ColumnLayout, w: &[f64]) -> Option<f64> {
         let total: f64 = w.iter().sum();
         let g = weighted_mean(&self.ln_x, w).exp();
         Some(g * (weighted_plugin_variance(&self.ln_x, w) / total).sqrt())
-    }
-    fn has_analytic_se(&self) -> bool {
-        true
     }
 }
 
@@ -129,9 +185,8 @@ pub struct TrimmedMean {
     pub trim: f64,
 }
 
-impl Statistic for TrimmedMean {
-    fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
-        let c = one(data);
+impl ColumnStatistic for TrimmedMean {
+    fn evaluate(&self, c: &ColumnLayout, w: &[f64], _: &mut Scratch) -> f64 {
         let total: f64 = w.iter().sum();
         let g = (self.trim * total).floor();
         let (lo, hi) = (g, total - g);
@@ -160,8 +215,7 @@ impl Statistic for TrimmedMean {
     /// positions [g′, n − 1 − g′) of the reduced sample are original positions
     /// [g′, min(C_j − 1, n − 1 − g′)) ∪ [max(g′, C_j − 1) + 1, n − g′), summed with prefix sums
     /// of the order statistics.
-    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        let c = one(data);
+    fn jackknife_closed(&self, c: &ColumnLayout) -> Option<Vec<f64>> {
         let n1 = c.total - 1.0;
         let g = (self.trim * n1).floor();
         let (lo, hi) = (g, n1 - g);
@@ -198,10 +252,9 @@ impl Statistic for TrimmedMean {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::engine::data::Sample;
 
-    fn prep(x: &[f64]) -> Prepared {
-        Prepared::from_sample(&Sample::Column(x.to_vec()))
+    fn prep(x: &[f64]) -> ColumnLayout {
+        ColumnLayout::rows(x)
     }
 
     #[test]
@@ -209,24 +262,21 @@ mod tests {
         // scipy.stats.trim_mean(range(10), 0.1) == 4.5 (cuts int(0.1*10) = 1 from each end);
         // trim_mean([1,2,3,4,100], 0.2) == 3.0 (cuts 1 from each end). scipy 1.17.
         let d = prep(&[0., 1., 2., 3., 4., 5., 6., 7., 8., 9.]);
-        let w = d.base_weights();
+        let w = d.base.clone();
         assert_eq!(TrimmedMean { trim: 0.1 }.evaluate(&d, &w, &mut Scratch::default()), 4.5);
         let d = prep(&[1., 2., 3., 4., 100.]);
-        let w = d.base_weights();
+        let w = d.base.clone();
         assert_eq!(TrimmedMean { trim: 0.2 }.evaluate(&d, &w, &mut Scratch::default()), 3.0);
     }
 
     #[test]
     fn closed_jackknife_of_trimmed_mean_matches_direct() {
         let samples = [
-            Prepared::from_sample(&Sample::Aggregated {
-                values: vec![1., 2., 3., 7., 9., 12.],
-                counts: vec![1, 3, 1, 2, 4, 2],
-            }),
+            ColumnLayout::aggregated(&[1., 2., 3., 7., 9., 12.], &[1, 3, 1, 2, 4, 2]),
             prep(&[5.0, 1.0, 9.0, 2.0, 2.0, 8.0, 3.0, 7.0, 4.0, 6.0, 10.0]),
         ];
-        for d in &samples {
-            let Prepared::One(c) = d else { unreachable!() };
+        for c in &samples {
+            let d = c;
             for trim in [0.0, 0.1, 0.2, 0.25, 0.4] {
                 let t = TrimmedMean { trim };
                 let jack = t.jackknife_closed(d).unwrap();
@@ -245,7 +295,7 @@ mod tests {
         let x = [3.0, 1.0, 4.0, 1.0, 5.0, 9.0];
         let d = prep(&x);
         let jack = Mean.jackknife_closed(&d).unwrap();
-        let Prepared::One(c) = &d else { unreachable!() };
+        let c = &d;
         for (j, v) in jack.iter().enumerate() {
             let mut w = c.base.clone();
             w[j] -= 1.0;

@@ -1,11 +1,15 @@
 //! The statistics catalogue.
 //!
-//! Every statistic is evaluated on a *weighted* sample: weights over the units of
-//! [`Prepared`](crate::engine::data::Prepared) that add up to the resample size. The sample
-//! itself is the case where every weight is the unit's base count. One implementation per
-//! statistic therefore serves the estimate, `iid` resamples (integer weights), Bayesian
-//! resamples (Dirichlet weights), exact enumeration and the jackknife (one weight lowered by
-//! one). Families live in their own files:
+//! Every statistic is evaluated on a *weighted* view of one sample: weights over the units of
+//! its [`Layout`](crate::engine::data::Layout) that add up to the resample size. The sample itself
+//! is the case where every weight is the unit's base count. One implementation per statistic
+//! therefore serves the estimate, `iid` resamples (integer weights), Bayesian resamples
+//! (Dirichlet weights), exact enumeration and the jackknife (one weight lowered by one).
+//!
+//! A statistic is defined once, in its family file: a spec type (its parameters, with their
+//! ranges, defaults and docs, which the wire format, the OpenAPI document and the catalogue are
+//! derived from), what it needs of the data, and its evaluation. [`statistics!`] below registers
+//! each one with a single line. Families:
 //!
 //! - [`location`]: mean, trimmed mean, geometric mean, proportion;
 //! - [`quantile`]: median, quantile (Hyndman–Fan definition 7), interquartile range, MAD;
@@ -17,151 +21,304 @@ pub mod location;
 pub mod quantile;
 pub mod spread;
 
-use crate::engine::data::{Prepared, RowTable, Sample};
+use crate::engine::data::{ColumnLayout, DataError, Form, Layout, Sample, TableLayout};
 
-/// Which statistic, with its parameters, as the caller asked for it.
-#[derive(Debug, Clone, PartialEq)]
-pub enum StatisticSpec {
-    Mean,
-    Median,
-    Quantile { p: f64 },
-    TrimmedMean { trim: f64 },
-    Variance { ddof: u32 },
-    StdDev { ddof: u32 },
-    Mad { normal_scale: bool },
-    Iqr,
-    GeometricMean,
-    CoefficientOfVariation,
-    Proportion,
-    Ratio { numerator: String, denominator: String },
-    Correlation { x: String, y: String, spearman: bool },
-    Slope { x: String, y: String },
+/// A statistic of one column, evaluated on a weighted view of it.
+pub trait ColumnStatistic: Send + Sync {
+    /// The value on a weighted resample; weights add up to the resample size. May be non-finite
+    /// where the statistic is undefined on that resample; the driver counts and drops those.
+    fn evaluate(&self, c: &ColumnLayout, w: &[f64], scratch: &mut Scratch) -> f64;
+
+    /// Closed-form leave-one-out values, one per unit (leaving out one observation of that
+    /// unit), in O(units) or O(units log units). `None` sends the jackknife to the generic path.
+    fn jackknife_closed(&self, _c: &ColumnLayout) -> Option<Vec<f64>> {
+        None
+    }
+
+    /// An analytic (delta-method or plug-in) standard error on a weighted sample, for the
+    /// studentized interval; `None` means a nested bootstrap is needed.
+    fn analytic_se(&self, _c: &ColumnLayout, _w: &[f64]) -> Option<f64> {
+        None
+    }
 }
 
-/// The factor that makes the MAD a consistent estimator of σ for normal data: 1/Φ⁻¹(3/4),
-/// rounded as is customary to 1.4826 (Hampel, F. R. (1974), JASA 69(346); common practice).
-pub const MAD_NORMAL_SCALE: f64 = 1.4826;
+/// A statistic of named columns read together as rows, evaluated on a weighted view of them.
+pub trait TableStatistic: Send + Sync {
+    /// See [`ColumnStatistic::evaluate`].
+    fn evaluate(&self, t: &TableLayout, w: &[f64], scratch: &mut Scratch) -> f64;
 
-impl StatisticSpec {
-    /// The catalogue name.
-    pub fn name(&self) -> &'static str {
-        match self {
-            StatisticSpec::Mean => "mean",
-            StatisticSpec::Median => "median",
-            StatisticSpec::Quantile { .. } => "quantile",
-            StatisticSpec::TrimmedMean { .. } => "trimmed_mean",
-            StatisticSpec::Variance { .. } => "variance",
-            StatisticSpec::StdDev { .. } => "std_dev",
-            StatisticSpec::Mad { .. } => "mad",
-            StatisticSpec::Iqr => "iqr",
-            StatisticSpec::GeometricMean => "geometric_mean",
-            StatisticSpec::CoefficientOfVariation => "coefficient_of_variation",
-            StatisticSpec::Proportion => "proportion",
-            StatisticSpec::Ratio { .. } => "ratio",
-            StatisticSpec::Correlation { .. } => "correlation",
-            StatisticSpec::Slope { .. } => "slope",
+    /// See [`ColumnStatistic::jackknife_closed`].
+    fn jackknife_closed(&self, _t: &TableLayout) -> Option<Vec<f64>> {
+        None
+    }
+
+    /// See [`ColumnStatistic::analytic_se`].
+    fn analytic_se(&self, _t: &TableLayout, _w: &[f64]) -> Option<f64> {
+        None
+    }
+}
+
+/// The parameters of a statistic of one column: what it says about itself before it sees data,
+/// and how it is built for a sample.
+pub trait ColumnSpec {
+    /// True when the built statistic has an analytic standard error.
+    const ANALYTIC_SE: bool = false;
+
+    /// Check the sample (every problem at once) and build the statistic.
+    fn build(&self, c: &ColumnLayout, values: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>>;
+
+    /// Work per unit per evaluation relative to the mean, for the work estimate.
+    fn relative_cost(&self) -> f64 {
+        1.0
+    }
+
+    /// True when the built statistic has a closed-form jackknife.
+    fn closed_jackknife(&self) -> bool {
+        true
+    }
+
+    /// True for a statistic of the extremes of a sample of `n`, whose bootstrap distribution is
+    /// known to be unreliable.
+    fn reads_extremes(&self, _n: f64) -> bool {
+        false
+    }
+}
+
+/// The parameters of a statistic of named columns. See [`ColumnSpec`].
+pub trait TableSpec {
+    const ANALYTIC_SE: bool = false;
+
+    /// The columns it reads, each with the parameter that names it.
+    fn columns(&self) -> [(&'static str, &str); 2];
+
+    fn build(&self, t: &TableLayout, columns: [usize; 2]) -> Result<Box<dyn TableStatistic>, Vec<DataError>>;
+
+    fn relative_cost(&self) -> f64 {
+        1.0
+    }
+
+    fn closed_jackknife(&self) -> bool {
+        true
+    }
+
+    fn reads_extremes(&self, _n: f64) -> bool {
+        false
+    }
+}
+
+/// What a statistic reads: one column, or named columns read together as rows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Shape {
+    Column,
+    Table,
+}
+
+/// The registry: one line per statistic, `shape "wire name" Variant(spec type)`. It defines
+/// [`StatisticSpec`], the tagged union the wire format and the OpenAPI document are derived
+/// from, and its dispatch to each spec.
+macro_rules! statistics {
+    ($( $shape:ident $wire:tt $variant:ident($spec:ty), )+) => {
+        /// A statistic with its parameters: `{"name": ..., parameters}`. Responses echo it
+        /// normalised, every parameter given.
+        #[derive(Debug, Clone, PartialEq, serde::Serialize, serde::Deserialize, utoipa::ToSchema)]
+        #[serde(tag = "name")]
+        pub enum StatisticSpec {
+            $( #[serde(rename = $wire)] $variant(#[schema(inline)] $spec), )+
         }
-    }
 
-    /// True for statistics over named columns.
-    pub fn needs_columns(&self) -> bool {
-        matches!(
-            self,
-            StatisticSpec::Ratio { .. } | StatisticSpec::Correlation { .. } | StatisticSpec::Slope { .. }
-        )
-    }
+        impl StatisticSpec {
+            /// Every statistic's name, in catalogue order.
+            pub const NAMES: &'static [&'static str] = &[$($wire),+];
 
-    /// The column names the statistic reads, with the parameter that names each.
-    pub fn column_parameters(&self) -> Vec<(&'static str, &str)> {
-        match self {
-            StatisticSpec::Ratio { numerator, denominator } => {
-                vec![("numerator", numerator.as_str()), ("denominator", denominator.as_str())]
+            /// The catalogue name.
+            pub fn name(&self) -> &'static str {
+                match self { $(Self::$variant(_) => $wire),+ }
             }
-            StatisticSpec::Correlation { x, y, .. } | StatisticSpec::Slope { x, y } => {
-                vec![("x", x.as_str()), ("y", y.as_str())]
+
+            /// What the statistic reads.
+            pub fn shape(&self) -> Shape {
+                match self { $(Self::$variant(_) => Shape::$shape),+ }
             }
-            _ => vec![],
+
+            /// The shape and analytic-standard-error fact of the statistic called `name`.
+            pub fn facts_of(name: &str) -> Option<(Shape, bool)> {
+                match name { $($wire => Some((Shape::$shape, statistics!(@analytic $shape, $spec))),)+ _ => None }
+            }
+
+            /// True when the statistic has an analytic standard error (studentized intervals
+            /// need no nested bootstrap).
+            pub fn has_analytic_se(&self) -> bool {
+                match self { $(Self::$variant(_) => statistics!(@analytic $shape, $spec)),+ }
+            }
+
+            /// Work per unit per evaluation relative to the mean.
+            pub fn relative_cost(&self) -> f64 {
+                match self { $(Self::$variant(s) => s.relative_cost()),+ }
+            }
+
+            /// True when the statistic has a closed-form jackknife.
+            pub fn has_closed_jackknife(&self) -> bool {
+                match self { $(Self::$variant(s) => s.closed_jackknife()),+ }
+            }
+
+            /// True for a statistic of the extremes of a sample of `n`.
+            pub fn reads_extremes(&self, n: f64) -> bool {
+                match self { $(Self::$variant(s) => s.reads_extremes(n)),+ }
+            }
+
+            /// Check the statistic against the sample (every problem at once) and bind it to
+            /// the sample's layout.
+            pub fn build(&self, sample: &Sample) -> Result<Estimator, Vec<DataError>> {
+                match self { $(Self::$variant(s) => statistics!(@build $shape, s, sample, $wire)),+ }
+            }
+
+            /// Read the parameters of the statistic called `name` (the object without its
+            /// name); `None` for a name that is not in the catalogue.
+            pub fn deserialize_params<'de, D: serde::Deserializer<'de>>(name: &str, d: D) -> Option<Result<Self, D::Error>> {
+                match name {
+                    $($wire => Some(<$spec as serde::Deserialize>::deserialize(d).map(Self::$variant)),)+
+                    _ => None,
+                }
+            }
+        }
+    };
+    (@analytic Column, $spec:ty) => { <$spec as ColumnSpec>::ANALYTIC_SE };
+    (@analytic Table, $spec:ty) => { <$spec as TableSpec>::ANALYTIC_SE };
+    (@build Column, $s:ident, $sample:ident, $wire:tt) => { build_column($s, $sample, $wire) };
+    (@build Table, $s:ident, $sample:ident, $wire:tt) => { build_table($s, $sample, $wire) };
+}
+
+statistics! {
+    Column "mean" Mean(location::MeanSpec),
+    Column "median" Median(quantile::MedianSpec),
+    Column "quantile" Quantile(quantile::QuantileSpec),
+    Column "trimmed_mean" TrimmedMean(location::TrimmedMeanSpec),
+    Column "variance" Variance(spread::VarianceSpec),
+    Column "std_dev" StdDev(spread::StdDevSpec),
+    Column "mad" Mad(quantile::MadSpec),
+    Column "iqr" Iqr(quantile::IqrSpec),
+    Column "geometric_mean" GeometricMean(location::GeometricMeanSpec),
+    Column "coefficient_of_variation" CoefficientOfVariation(spread::CoefficientOfVariationSpec),
+    Column "proportion" Proportion(location::ProportionSpec),
+    Table "ratio" Ratio(association::RatioSpec),
+    Table "correlation" Correlation(association::CorrelationSpec),
+    Table "slope" Slope(association::SlopeSpec),
+}
+
+impl Default for StatisticSpec {
+    /// The mean: the statistic of a request that names none.
+    fn default() -> Self {
+        StatisticSpec::Mean(location::MeanSpec {})
+    }
+}
+
+fn build_column(spec: &impl ColumnSpec, sample: &Sample, name: &'static str) -> Result<Estimator, Vec<DataError>> {
+    let values = match sample.form() {
+        Form::Column(x) => x.as_slice(),
+        Form::Aggregated { values, .. } => values.as_slice(),
+        Form::Columns { .. } => return Err(vec![DataError::NeedsOneColumn { statistic: name }]),
+    };
+    let Layout::Column(data) = Layout::of(sample) else {
+        return Err(vec![DataError::NeedsOneColumn { statistic: name }]);
+    };
+    let stat = spec.build(&data, values)?;
+    Ok(Estimator::Column { data, stat })
+}
+
+fn build_table(spec: &impl TableSpec, sample: &Sample, name: &'static str) -> Result<Estimator, Vec<DataError>> {
+    let Layout::Table(data) = Layout::of(sample) else {
+        return Err(vec![DataError::NeedsColumns { statistic: name }]);
+    };
+    let mut problems = Vec::new();
+    let mut index = [0; 2];
+    for (k, (parameter, column)) in spec.columns().into_iter().enumerate() {
+        match data.names.iter().position(|n| n == column) {
+            Some(i) => index[k] = i,
+            None => problems.push(DataError::MissingColumn {
+                parameter,
+                name: column.to_string(),
+                available: data.names.clone(),
+            }),
         }
     }
+    if !problems.is_empty() {
+        return Err(problems);
+    }
+    if data.rows < 2 {
+        return Err(vec![DataError::TooFewRows {
+            statistic: name,
+            needed: 2,
+        }]);
+    }
+    let stat = spec.build(&data, index)?;
+    Ok(Estimator::Table { data, stat })
+}
 
-    /// True for a statistic of the extremes of the sample, whose bootstrap distribution is
-    /// known to be unreliable (a quantile whose tail holds fewer than five observations).
-    pub fn reads_extremes(&self, n: f64) -> bool {
+/// A statistic bound to the layout of its sample: everything the driver evaluates.
+pub enum Estimator {
+    Column {
+        data: ColumnLayout,
+        stat: Box<dyn ColumnStatistic>,
+    },
+    Table {
+        data: TableLayout,
+        stat: Box<dyn TableStatistic>,
+    },
+}
+
+/// What a resampler needs to know of a sample's units.
+#[derive(Debug, Clone, Copy)]
+pub struct Units<'a> {
+    /// The base weight of every unit (its count in the sample).
+    pub base: &'a [f64],
+    /// The sample size, Σ base.
+    pub total: f64,
+    /// True when every unit is one row.
+    pub raw: bool,
+}
+
+impl Estimator {
+    pub fn evaluate(&self, w: &[f64], scratch: &mut Scratch) -> f64 {
         match self {
-            StatisticSpec::Quantile { p } => n * p.min(1.0 - p) < 5.0,
-            _ => false,
+            Estimator::Column { data, stat } => stat.evaluate(data, w, scratch),
+            Estimator::Table { data, stat } => stat.evaluate(data, w, scratch),
         }
     }
 
-    /// Work per unit per evaluation relative to the mean, for the work estimate made before a
-    /// job starts.
-    pub fn relative_cost(&self) -> f64 {
+    pub fn jackknife_closed(&self) -> Option<Vec<f64>> {
         match self {
-            StatisticSpec::TrimmedMean { .. } => 1.5,
-            StatisticSpec::Iqr => 2.0,
-            StatisticSpec::Mad { .. } => 3.0,
-            StatisticSpec::Correlation { spearman: true, .. } => 12.0,
-            StatisticSpec::Correlation { .. } | StatisticSpec::Slope { .. } => 4.0,
-            _ => 1.0,
+            Estimator::Column { data, stat } => stat.jackknife_closed(data),
+            Estimator::Table { data, stat } => stat.jackknife_closed(data),
         }
     }
 
-    /// True when the statistic has an analytic standard error (so studentized intervals need no
-    /// nested bootstrap); agrees with [`Statistic::has_analytic_se`] of the built statistic.
-    pub fn has_analytic_se(&self) -> bool {
-        matches!(
-            self,
-            StatisticSpec::Mean
-                | StatisticSpec::Proportion
-                | StatisticSpec::GeometricMean
-                | StatisticSpec::Variance { .. }
-                | StatisticSpec::StdDev { .. }
-                | StatisticSpec::Ratio { .. }
-                | StatisticSpec::Slope { .. }
-        )
-    }
-
-    /// True when the statistic has a closed-form jackknife (see `Statistic::jackknife_closed`);
-    /// used to estimate the work of BCa before a job starts.
-    pub fn has_closed_jackknife(&self) -> bool {
-        !matches!(self, StatisticSpec::Mad { .. } | StatisticSpec::Correlation { spearman: true, .. })
-    }
-
-    /// True when shifting every value by c shifts the statistic by c (location statistics).
-    pub fn shift_equivariant(&self) -> bool {
-        matches!(
-            self,
-            StatisticSpec::Mean | StatisticSpec::Median | StatisticSpec::Quantile { .. } | StatisticSpec::TrimmedMean { .. }
-        )
-    }
-}
-
-/// Where in the data a problem lies, for the API layer to turn into a JSON Pointer.
-#[derive(Debug, Clone, PartialEq)]
-pub enum DataLocation {
-    /// The data as a whole.
-    Whole,
-    /// The i-th value of a one-column sample (for aggregated data, of `values`).
-    Value(usize),
-    /// A named column as a whole.
-    Column(String),
-    /// A parameter of the statistic (e.g. `numerator`).
-    Parameter(&'static str),
-}
-
-/// A reason the statistic cannot be computed on this sample.
-#[derive(Debug, Clone, PartialEq)]
-pub struct DataProblem {
-    pub location: DataLocation,
-    pub message: String,
-}
-
-impl DataProblem {
-    pub fn new(location: DataLocation, message: impl Into<String>) -> Self {
-        DataProblem {
-            location,
-            message: message.into(),
+    pub fn analytic_se(&self, w: &[f64]) -> Option<f64> {
+        match self {
+            Estimator::Column { data, stat } => stat.analytic_se(data, w),
+            Estimator::Table { data, stat } => stat.analytic_se(data, w),
         }
+    }
+
+    /// The units a resample puts weight on.
+    pub fn units(&self) -> Units<'_> {
+        match self {
+            Estimator::Column { data, .. } => Units {
+                base: &data.base,
+                total: data.total,
+                raw: data.raw,
+            },
+            Estimator::Table { data, .. } => Units {
+                base: &data.base,
+                total: data.rows as f64,
+                raw: true,
+            },
+        }
+    }
+
+    /// The statistic on the sample itself.
+    pub fn estimate(&self) -> f64 {
+        let units = self.units();
+        self.evaluate(units.base, &mut Scratch::with_units(units.base.len()))
     }
 }
 
@@ -178,134 +335,6 @@ impl Scratch {
             a: Vec::with_capacity(units),
             b: Vec::with_capacity(units),
         }
-    }
-}
-
-/// A statistic ready to evaluate on weighted resamples of one prepared sample.
-pub trait Statistic: Send + Sync {
-    /// The value on a weighted resample; weights add up to the resample size.
-    /// May be non-finite where the statistic is undefined on that resample (a constant column
-    /// for a correlation); the driver counts and drops such replicates.
-    fn evaluate(&self, data: &Prepared, w: &[f64], scratch: &mut Scratch) -> f64;
-
-    /// Closed-form leave-one-out values, one per unit (leaving out one observation of that
-    /// unit), in O(units) overall. `None` sends the jackknife to the generic path.
-    fn jackknife_closed(&self, _data: &Prepared) -> Option<Vec<f64>> {
-        None
-    }
-
-    /// An analytic (delta-method or plug-in) standard error of the statistic on a weighted
-    /// sample, used by the studentized interval. `None` means a nested bootstrap is needed.
-    fn analytic_se(&self, _data: &Prepared, _w: &[f64]) -> Option<f64> {
-        None
-    }
-
-    /// True when [`Statistic::analytic_se`] returns values.
-    fn has_analytic_se(&self) -> bool {
-        false
-    }
-}
-
-/// Check the statistic against the sample (every problem at once) and build it.
-pub fn build(spec: &StatisticSpec, sample: &Sample, data: &Prepared) -> Result<Box<dyn Statistic>, Vec<DataProblem>> {
-    match (spec.needs_columns(), data) {
-        (true, Prepared::Rows(table)) => association::build(spec, table),
-        (true, Prepared::One(_)) => Err(vec![DataProblem::new(
-            DataLocation::Whole,
-            format!(
-                "statistic {} needs named columns: send data as {{\"columns\": {{\"x\": [...], \"y\": [...]}}}}",
-                spec.name()
-            ),
-        )]),
-        (false, Prepared::Rows(_)) => Err(vec![DataProblem::new(
-            DataLocation::Whole,
-            format!(
-                "statistic {} works on one column: send data as an array of numbers or as {{\"values\": [...], \"counts\": [...]}}",
-                spec.name()
-            ),
-        )]),
-        (false, Prepared::One(_)) => {
-            let values = match sample {
-                Sample::Column(x) => x.as_slice(),
-                Sample::Aggregated { values, .. } => values.as_slice(),
-                Sample::Columns { .. } => unreachable!("matched on Prepared::One"),
-            };
-            check_one_column(spec, values, data)?;
-            Ok(match spec {
-                StatisticSpec::Mean => Box::new(location::Mean),
-                StatisticSpec::TrimmedMean { trim } => Box::new(location::TrimmedMean { trim: *trim }),
-                StatisticSpec::GeometricMean => Box::new(location::GeometricMean::new(data)),
-                StatisticSpec::Proportion => Box::new(location::Proportion),
-                StatisticSpec::Median => Box::new(quantile::Quantile { p: 0.5 }),
-                StatisticSpec::Quantile { p } => Box::new(quantile::Quantile { p: *p }),
-                StatisticSpec::Iqr => Box::new(quantile::Iqr),
-                StatisticSpec::Mad { normal_scale } => Box::new(quantile::Mad {
-                    scale: if *normal_scale { MAD_NORMAL_SCALE } else { 1.0 },
-                }),
-                StatisticSpec::Variance { ddof } => Box::new(spread::Variance {
-                    ddof: *ddof as f64,
-                    root: false,
-                }),
-                StatisticSpec::StdDev { ddof } => Box::new(spread::Variance {
-                    ddof: *ddof as f64,
-                    root: true,
-                }),
-                StatisticSpec::CoefficientOfVariation => Box::new(spread::CoefficientOfVariation),
-                _ => unreachable!("column statistics handled above"),
-            })
-        }
-    }
-}
-
-fn check_one_column(spec: &StatisticSpec, values: &[f64], data: &Prepared) -> Result<(), Vec<DataProblem>> {
-    let mut problems = Vec::new();
-    match spec {
-        StatisticSpec::GeometricMean => {
-            for (i, v) in values.iter().enumerate() {
-                if *v <= 0.0 {
-                    problems.push(DataProblem::new(
-                        DataLocation::Value(i),
-                        format!(
-                            "the geometric mean needs positive values; {v} is not (drop or shift non-positive values, or use the median)"
-                        ),
-                    ));
-                }
-            }
-        }
-        StatisticSpec::Proportion => {
-            for (i, v) in values.iter().enumerate() {
-                if *v != 0.0 && *v != 1.0 {
-                    problems.push(DataProblem::new(
-                        DataLocation::Value(i),
-                        format!("a proportion needs data of 0 and 1 only; {v} is neither (code successes as 1 and failures as 0)"),
-                    ));
-                }
-            }
-        }
-        StatisticSpec::CoefficientOfVariation => {
-            let total = data.total();
-            let mean = location::weighted_mean_one(data, &data.base_weights());
-            if total > 0.0 && mean == 0.0 {
-                problems.push(DataProblem::new(
-                    DataLocation::Whole,
-                    "the coefficient of variation divides by the mean, which is 0 for this data; use std_dev instead",
-                ));
-            }
-        }
-        StatisticSpec::Variance { ddof } | StatisticSpec::StdDev { ddof } => {
-            if data.total() <= *ddof as f64 {
-                problems.push(DataProblem::new(
-                    DataLocation::Whole,
-                    format!("with ddof = {ddof} the variance needs more than {ddof} observations"),
-                ));
-            }
-        }
-        _ => {}
-    }
-    if problems.is_empty() {
-        Ok(())
-    } else {
-        Err(problems)
     }
 }
 
@@ -336,82 +365,68 @@ pub(crate) fn weighted_moments2(x: &[f64], y: &[f64], w: &[f64]) -> (f64, f64, f
     (sw, mx, my, sxx, syy, sxy)
 }
 
-/// Look up the named columns of an association statistic, reporting every missing one.
-pub(crate) fn resolve_columns<'t>(spec: &StatisticSpec, table: &'t RowTable) -> Result<Vec<&'t [f64]>, Vec<DataProblem>> {
-    let mut problems = Vec::new();
-    let mut cols = Vec::new();
-    for (param, name) in spec.column_parameters() {
-        match table.column(name) {
-            Some(c) => cols.push(c),
-            None => problems.push(DataProblem::new(
-                DataLocation::Parameter(param),
-                format!(
-                    "column \"{name}\" is not in the data; the data has {}",
-                    table.names.iter().map(|n| format!("\"{n}\"")).collect::<Vec<_>>().join(", ")
-                ),
-            )),
-        }
-    }
-    if problems.is_empty() {
-        Ok(cols)
-    } else {
-        Err(problems)
-    }
-}
-
 #[cfg(test)]
-mod tests {
+pub(crate) mod tests {
     use super::*;
+
+    /// One valid spec of every statistic, for tests that go through the whole catalogue.
+    pub fn every_statistic() -> Vec<StatisticSpec> {
+        let spec = |v: serde_json::Value| serde_json::from_value::<StatisticSpec>(v).unwrap();
+        let examples = [
+            serde_json::json!({"name": "mean"}),
+            serde_json::json!({"name": "median"}),
+            serde_json::json!({"name": "quantile", "p": 0.3}),
+            serde_json::json!({"name": "trimmed_mean", "trim": 0.2}),
+            serde_json::json!({"name": "variance", "divisor": "n-1"}),
+            serde_json::json!({"name": "std_dev"}),
+            serde_json::json!({"name": "mad", "normalized": true}),
+            serde_json::json!({"name": "iqr"}),
+            serde_json::json!({"name": "geometric_mean"}),
+            serde_json::json!({"name": "coefficient_of_variation"}),
+            serde_json::json!({"name": "proportion"}),
+            serde_json::json!({"name": "ratio", "numerator": "y", "denominator": "x"}),
+            serde_json::json!({"name": "correlation", "x": "x", "y": "y"}),
+            serde_json::json!({"name": "correlation", "x": "x", "y": "y", "kind": "spearman"}),
+            serde_json::json!({"name": "slope", "x": "x", "y": "y"}),
+        ];
+        examples.into_iter().map(spec).collect()
+    }
 
     /// The spec's promises agree with what the built statistics do.
     #[test]
-    fn spec_flags_match_the_built_statistics() {
-        let one = Sample::Column(vec![1.0, 2.0, 4.0, 8.0, 9.0]);
-        let cols = Sample::Columns {
-            names: vec!["x".into(), "y".into()],
-            columns: vec![vec![1.0, 2.0, 4.0, 8.0, 9.0], vec![2.0, 1.0, 5.0, 7.0, 9.5]],
-        };
-        let specs = [
-            StatisticSpec::Mean,
-            StatisticSpec::Median,
-            StatisticSpec::Quantile { p: 0.3 },
-            StatisticSpec::TrimmedMean { trim: 0.2 },
-            StatisticSpec::Variance { ddof: 1 },
-            StatisticSpec::StdDev { ddof: 0 },
-            StatisticSpec::Mad { normal_scale: true },
-            StatisticSpec::Iqr,
-            StatisticSpec::GeometricMean,
-            StatisticSpec::CoefficientOfVariation,
-            StatisticSpec::Ratio {
-                numerator: "y".into(),
-                denominator: "x".into(),
-            },
-            StatisticSpec::Correlation {
-                x: "x".into(),
-                y: "y".into(),
-                spearman: false,
-            },
-            StatisticSpec::Correlation {
-                x: "x".into(),
-                y: "y".into(),
-                spearman: true,
-            },
-            StatisticSpec::Slope {
-                x: "x".into(),
-                y: "y".into(),
-            },
-        ];
+    fn spec_facts_match_the_built_statistics() {
+        let one = Sample::column(vec![1.0, 2.0, 4.0, 8.0, 9.0]).unwrap();
+        let binary = Sample::column(vec![1.0, 0.0, 0.0, 1.0, 1.0]).unwrap();
+        let cols = Sample::columns(
+            vec!["x".into(), "y".into()],
+            vec![vec![1.0, 2.0, 4.0, 8.0, 9.0], vec![2.0, 1.0, 5.0, 7.0, 9.5]],
+        )
+        .unwrap();
+        let specs = every_statistic();
+        let mut names: Vec<&str> = specs.iter().map(|s| s.name()).collect();
+        names.dedup();
+        assert_eq!(names, StatisticSpec::NAMES, "every registered statistic is exercised here");
         for spec in specs {
-            let sample = if spec.needs_columns() { &cols } else { &one };
-            let data = Prepared::from_sample(sample);
-            let stat = build(&spec, sample, &data).unwrap();
-            assert_eq!(stat.has_analytic_se(), spec.has_analytic_se(), "{spec:?}");
-            assert_eq!(
-                stat.analytic_se(&data, &data.base_weights()).is_some(),
-                spec.has_analytic_se(),
-                "{spec:?}"
-            );
-            assert_eq!(stat.jackknife_closed(&data).is_some(), spec.has_closed_jackknife(), "{spec:?}");
+            let sample = match (spec.shape(), spec.name()) {
+                (Shape::Table, _) => &cols,
+                (_, "proportion") => &binary,
+                _ => &one,
+            };
+            let est = spec.build(sample).unwrap();
+            let base = est.units().base.to_vec();
+            assert_eq!(est.analytic_se(&base).is_some(), spec.has_analytic_se(), "{spec:?}");
+            assert_eq!(est.jackknife_closed().is_some(), spec.has_closed_jackknife(), "{spec:?}");
+            assert_eq!(StatisticSpec::facts_of(spec.name()), Some((spec.shape(), spec.has_analytic_se())));
         }
+    }
+
+    #[test]
+    fn a_statistic_refuses_data_of_the_other_shape() {
+        let one = Sample::column(vec![1.0, 2.0, 4.0]).unwrap();
+        let slope = every_statistic().into_iter().find(|s| s.name() == "slope").unwrap();
+        assert!(matches!(
+            slope.build(&one).err().unwrap()[0],
+            DataError::NeedsColumns { statistic: "slope" }
+        ));
     }
 }

@@ -7,13 +7,91 @@
 //! whose cumulative weight range [C_{j−1}, C_j) holds k, which is exact for integer
 //! (resample-count) weights and extends smoothly to real (Bayesian) weights.
 
-use super::{Scratch, Statistic};
-use crate::engine::data::{Prepared, SortedColumn};
+use serde::{Deserialize, Serialize};
+use utoipa::ToSchema;
 
-fn one(data: &Prepared) -> &SortedColumn {
-    match data {
-        Prepared::One(c) => c,
-        Prepared::Rows(_) => unreachable!("order statistics are built for one column only"),
+use super::{ColumnSpec, ColumnStatistic, Scratch};
+use crate::engine::data::{ColumnLayout, DataError};
+
+/// A tail holding fewer observations than this makes a quantile a statistic of the extremes,
+/// whose bootstrap distribution cannot see past the most extreme observations (common practice).
+pub const EXTREME_TAIL: f64 = 5.0;
+
+crate::bounded_number! {
+    /// A probability, from 0 to 1.
+    pub struct Probability where 0.0 <= x <= 1.0, "a probability from 0 to 1";
+}
+
+/// Median (Hyndman–Fan definition 7 at p = 0.5).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct MedianSpec {}
+
+impl ColumnSpec for MedianSpec {
+    fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+        Ok(Box::new(Quantile { p: 0.5 }))
+    }
+}
+
+/// Sample quantile, Hyndman–Fan definition 7 (numpy's linear).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct QuantileSpec {
+    /// Probability in [0, 1].
+    pub p: Probability,
+}
+
+impl ColumnSpec for QuantileSpec {
+    fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+        Ok(Box::new(Quantile { p: self.p.get() }))
+    }
+    /// A quantile whose smaller tail holds fewer than [`EXTREME_TAIL`] observations.
+    fn reads_extremes(&self, n: f64) -> bool {
+        let p = self.p.get();
+        n * p.min(1.0 - p) < EXTREME_TAIL
+    }
+}
+
+/// Interquartile range Q(0.75) − Q(0.25).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct IqrSpec {}
+
+impl ColumnSpec for IqrSpec {
+    fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+        Ok(Box::new(Iqr))
+    }
+    fn relative_cost(&self) -> f64 {
+        2.0
+    }
+}
+
+/// The factor that makes the MAD a consistent estimator of σ for normal data: 1/Φ⁻¹(3/4),
+/// rounded as is customary to 1.4826 (Hampel, F. R. (1974), JASA 69(346); common practice).
+pub const MAD_NORMAL_SCALE: f64 = 1.4826;
+
+/// Median absolute deviation from the median.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct MadSpec {
+    /// `true` multiplies by 1.4826, which makes the MAD estimate σ for normal data. Default `false`
+    /// (the raw median absolute deviation).
+    #[serde(default)]
+    #[schema(default = false)]
+    pub normalized: bool,
+}
+
+impl ColumnSpec for MadSpec {
+    fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+        Ok(Box::new(Mad {
+            scale: if self.normalized { MAD_NORMAL_SCALE } else { 1.0 },
+        }))
+    }
+    fn relative_cost(&self) -> f64 {
+        3.0
+    }
+    fn closed_jackknife(&self) -> bool {
+        false
     }
 }
 
@@ -61,7 +139,7 @@ fn interpolate(a: f64, b: f64, frac: f64) -> f64 {
 /// sorted sample leaves order statistic t equal to the original x₍t₎ when t < C_j − 1 and to
 /// x₍t+1₎ otherwise (C_j the cumulative count through unit j), so only three original order
 /// statistics are needed.
-pub(crate) fn jackknife_quantiles(c: &SortedColumn, p: f64) -> Vec<f64> {
+pub(crate) fn jackknife_quantiles(c: &ColumnLayout, p: f64) -> Vec<f64> {
     let n = c.total;
     let h = (n - 2.0) * p;
     let t = h.floor();
@@ -85,28 +163,25 @@ pub struct Quantile {
     pub p: f64,
 }
 
-impl Statistic for Quantile {
-    fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
-        let c = one(data);
+impl ColumnStatistic for Quantile {
+    fn evaluate(&self, c: &ColumnLayout, w: &[f64], _: &mut Scratch) -> f64 {
         let total: f64 = w.iter().sum();
         weighted_quantile(&c.x, w, total, self.p)
     }
-    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        Some(jackknife_quantiles(one(data), self.p))
+    fn jackknife_closed(&self, c: &ColumnLayout) -> Option<Vec<f64>> {
+        Some(jackknife_quantiles(c, self.p))
     }
 }
 
 /// The interquartile range Q(0.75) − Q(0.25).
 pub struct Iqr;
 
-impl Statistic for Iqr {
-    fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
-        let c = one(data);
+impl ColumnStatistic for Iqr {
+    fn evaluate(&self, c: &ColumnLayout, w: &[f64], _: &mut Scratch) -> f64 {
         let total: f64 = w.iter().sum();
         weighted_quantile(&c.x, w, total, 0.75) - weighted_quantile(&c.x, w, total, 0.25)
     }
-    fn jackknife_closed(&self, data: &Prepared) -> Option<Vec<f64>> {
-        let c = one(data);
+    fn jackknife_closed(&self, c: &ColumnLayout) -> Option<Vec<f64>> {
         let hi = jackknife_quantiles(c, 0.75);
         let lo = jackknife_quantiles(c, 0.25);
         Some(hi.iter().zip(&lo).map(|(h, l)| h - l).collect())
@@ -119,11 +194,10 @@ pub struct Mad {
     pub scale: f64,
 }
 
-impl Statistic for Mad {
+impl ColumnStatistic for Mad {
     /// The deviations |x − m| of a sorted sample form two sorted runs, walking outward from the
     /// median; merging them finds the median deviation in one pass without sorting.
-    fn evaluate(&self, data: &Prepared, w: &[f64], _: &mut Scratch) -> f64 {
-        let c = one(data);
+    fn evaluate(&self, c: &ColumnLayout, w: &[f64], _: &mut Scratch) -> f64 {
         let x = &c.x;
         let total: f64 = w.iter().sum();
         let med = weighted_quantile(x, w, total, 0.5);
@@ -180,18 +254,17 @@ impl Statistic for Mad {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::engine::data::Sample;
 
-    fn prep(x: &[f64]) -> Prepared {
-        Prepared::from_sample(&Sample::Column(x.to_vec()))
+    fn prep(x: &[f64]) -> ColumnLayout {
+        ColumnLayout::rows(x)
     }
 
     #[test]
     fn definition_7_matches_numpy_linear() {
-        // REFERENCES.md: numpy 2.4 quantile(method="linear") of [2,5,7,7,3,9,4,6]
+        // docs/references.md: numpy 2.4 quantile(method="linear") of [2,5,7,7,3,9,4,6]
         // gives 0.10 → 2.7, 0.25 → 3.75, 0.50 → 5.5, 0.90 → 7.6.
         let d = prep(&[2., 5., 7., 7., 3., 9., 4., 6.]);
-        let w = d.base_weights();
+        let w = d.base.clone();
         for (p, want) in [(0.10, 2.7), (0.25, 3.75), (0.50, 5.5), (0.90, 7.6)] {
             let got = Quantile { p }.evaluate(&d, &w, &mut Scratch::default());
             assert!((got - want).abs() < 1e-12, "p = {p}: {got} vs {want}");
@@ -200,18 +273,15 @@ mod tests {
 
     #[test]
     fn aggregated_equals_expanded() {
-        let agg = Prepared::from_sample(&Sample::Aggregated {
-            values: vec![5., 1., 3.],
-            counts: vec![2, 3, 4],
-        });
+        let agg = ColumnLayout::aggregated(&[5., 1., 3.], &[2, 3, 4]);
         let raw = prep(&[5., 5., 1., 1., 1., 3., 3., 3., 3.]);
         for p in [0.0, 0.1, 0.33, 0.5, 0.77, 1.0] {
-            let a = Quantile { p }.evaluate(&agg, &agg.base_weights(), &mut Scratch::default());
-            let b = Quantile { p }.evaluate(&raw, &raw.base_weights(), &mut Scratch::default());
+            let a = Quantile { p }.evaluate(&agg, &agg.base.clone(), &mut Scratch::default());
+            let b = Quantile { p }.evaluate(&raw, &raw.base.clone(), &mut Scratch::default());
             assert_eq!(a, b, "p = {p}");
         }
-        let a = Mad { scale: 1.0 }.evaluate(&agg, &agg.base_weights(), &mut Scratch::default());
-        let b = Mad { scale: 1.0 }.evaluate(&raw, &raw.base_weights(), &mut Scratch::default());
+        let a = Mad { scale: 1.0 }.evaluate(&agg, &agg.base.clone(), &mut Scratch::default());
+        let b = Mad { scale: 1.0 }.evaluate(&raw, &raw.base.clone(), &mut Scratch::default());
         assert_eq!(a, b);
     }
 
@@ -220,22 +290,19 @@ mod tests {
         // Brute force: sort |x − median| and take the definition 7 median.
         let x = [1.0, 4.0, 4.5, 7.0, 10.0, 2.0, 2.5, 30.0, 8.0];
         let d = prep(&x);
-        let w = d.base_weights();
+        let w = d.base.clone();
         let med = Quantile { p: 0.5 }.evaluate(&d, &w, &mut Scratch::default());
         let mut dev: Vec<f64> = x.iter().map(|v| (v - med).abs()).collect();
         dev.sort_by(f64::total_cmp);
         let dd = prep(&dev);
-        let want = Quantile { p: 0.5 }.evaluate(&dd, &dd.base_weights(), &mut Scratch::default());
+        let want = Quantile { p: 0.5 }.evaluate(&dd, &dd.base.clone(), &mut Scratch::default());
         assert_eq!(Mad { scale: 1.0 }.evaluate(&d, &w, &mut Scratch::default()), want);
     }
 
     #[test]
     fn closed_jackknife_matches_direct() {
-        let d = Prepared::from_sample(&Sample::Aggregated {
-            values: vec![1., 2., 3., 7., 9.],
-            counts: vec![1, 3, 1, 2, 4],
-        });
-        let Prepared::One(c) = &d else { unreachable!() };
+        let d = ColumnLayout::aggregated(&[1., 2., 3., 7., 9.], &[1, 3, 1, 2, 4]);
+        let c = &d;
         for p in [0.1, 0.25, 0.5, 0.9] {
             let jack = jackknife_quantiles(c, p);
             for j in 0..c.x.len() {

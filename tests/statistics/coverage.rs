@@ -21,10 +21,9 @@
 //! Every tolerance is 4 standard errors of the difference between our binomial estimate and
 //! numpy's, √(c(1 − c)/T + se_numpy²); with fixed seeds the test cannot flake.
 
-use bandsaw::engine::data::Sample;
-use bandsaw::engine::interval::Method;
-use bandsaw::engine::run::{run, Job, Resamples};
-use bandsaw::engine::statistic::StatisticSpec;
+use crate::common::*;
+use bandsaw::engine::plan::Resamples;
+
 use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, Exp1, StandardNormal};
@@ -38,11 +37,11 @@ fn coverage(trials: u64, n: usize, truth: f64, seed: u64, draw: impl Fn(&mut Cha
     for t in 0..trials {
         let mut rng = ChaCha8Rng::seed_from_u64(seed * 1_000_003 + t);
         let x: Vec<f64> = (0..n).map(|_| draw(&mut rng)).collect();
-        let mut job = Job::new(Sample::Column(x), StatisticSpec::Mean, seed + t);
+        let mut job = Job::new(column(x), stat("mean"), seed + t);
         job.resamples = Resamples::Fixed(1000);
-        job.levels = vec![0.90];
+        job.levels = levels(&[0.90]);
         job.methods = METHODS.to_vec();
-        let o = run(&job).unwrap();
+        let o = run(&job);
         for (k, iv) in o.intervals.iter().enumerate() {
             if iv.endpoints.lower <= truth && truth <= iv.endpoints.upper {
                 hits[k] += 1;

@@ -1,13 +1,13 @@
-//! Black-box tests of `POST /v1/interval` over real HTTP: validation (every invalid field at
-//! once, each with a JSON Pointer), problem documents, limits, tokens and replay, exact
-//! enumeration, constant data, time and work limits.
-
-mod common;
+//! `POST /v1/interval`: validation (every invalid field at once, each with a JSON Pointer and,
+//! where a rule beyond the schema refused it, the rule's name), problem documents, limits, tokens
+//! and replay, exact enumeration, constant data, time and work limits.
 
 use std::time::{Duration, Instant};
 
-use common::{pointers, without_timing, TestApp};
+use bandsaw::api::token::PREFIX;
 use serde_json::{json, Value};
+
+use crate::common::{invalid, message_at, ok, pointers, problem, rule_at, without_timing, TestApp};
 
 const MAX_SEED: u64 = (1 << 53) - 1;
 const ALL_METHODS: [&str; 5] = ["percentile", "basic", "normal", "bca", "studentized"];
@@ -15,73 +15,6 @@ const ALL_METHODS: [&str; 5] = ["percentile", "basic", "normal", "bca", "student
 // ---------------------------------------------------------------------------------------------
 // Helpers
 // ---------------------------------------------------------------------------------------------
-
-/// The JSON Pointer of the first `null` anywhere in `v`, if any.
-fn first_null(v: &Value, at: &str) -> Option<String> {
-    match v {
-        Value::Null => Some(at.to_string()),
-        Value::Array(items) => items.iter().enumerate().find_map(|(i, it)| first_null(it, &format!("{at}/{i}"))),
-        Value::Object(o) => o
-            .iter()
-            .find_map(|(k, it)| first_null(it, &format!("{at}/{}", k.replace('~', "~0").replace('/', "~1")))),
-        _ => None,
-    }
-}
-
-fn assert_no_nulls(v: &Value) {
-    if let Some(at) = first_null(v, "") {
-        panic!("the response has a null at {at:?}: {v}");
-    }
-}
-
-/// Assert a 200 JSON response without nulls and return its body.
-fn ok(resp: (u16, String, Value)) -> Value {
-    let (status, ct, v) = resp;
-    assert_eq!(status, 200, "expected 200, got {status}: {v}");
-    assert!(ct.starts_with("application/json"), "content-type {ct:?}");
-    assert!(v.is_object(), "the body is not a JSON object: {v}");
-    assert_no_nulls(&v);
-    v
-}
-
-/// Assert a problem document with this status and slug; return it.
-fn problem(resp: (u16, String, Value), status: u16, slug: &str) -> Value {
-    let (s, ct, v) = resp;
-    assert_eq!(s, status, "expected {status} /problems/{slug}, got {s}: {v}");
-    assert_eq!(ct, "application/problem+json", "problem content-type for {v}");
-    assert_eq!(v["type"], format!("/problems/{slug}"), "problem type: {v}");
-    assert_eq!(v["status"], status, "problem status member: {v}");
-    assert!(v["title"].as_str().is_some_and(|t| !t.is_empty()), "problem title: {v}");
-    assert!(v["detail"].as_str().is_some_and(|t| !t.is_empty()), "problem detail: {v}");
-    v
-}
-
-/// Assert a 422 invalid-request problem whose pointers are exactly `expected` (in any order).
-fn invalid(resp: (u16, String, Value), expected: &[&str]) -> Value {
-    let v = problem(resp, 422, "invalid-request");
-    let mut got = pointers(&v);
-    got.sort();
-    let mut want: Vec<String> = expected.iter().map(|s| s.to_string()).collect();
-    want.sort();
-    assert_eq!(got, want, "pointers of {v}");
-    for e in v["errors"].as_array().unwrap() {
-        assert!(
-            e["message"].as_str().is_some_and(|m| !m.is_empty()),
-            "every error has a message: {v}"
-        );
-    }
-    v
-}
-
-/// The message of the error at `pointer`.
-fn message_at(v: &Value, pointer: &str) -> String {
-    v["errors"]
-        .as_array()
-        .and_then(|a| a.iter().find(|e| e["pointer"] == pointer))
-        .and_then(|e| e["message"].as_str())
-        .unwrap_or_else(|| panic!("no error at {pointer:?} in {v}"))
-        .to_string()
-}
 
 fn warning_codes(v: &Value) -> Vec<String> {
     v["diagnostics"]["warnings"]
@@ -101,6 +34,23 @@ async fn post_raw_json(app: &TestApp, body: &str) -> (u16, String, Value) {
 /// A deterministic, varied (non-constant, few ties) sample of `n` values.
 fn sample(n: usize) -> Vec<f64> {
     (0..n).map(|i| ((i * 7919) % 1000) as f64 / 10.0 + (i % 13) as f64 * 0.37).collect()
+}
+
+// ---------------------------------------------------------------------------------------------
+// a first request
+// ---------------------------------------------------------------------------------------------
+
+#[tokio::test]
+async fn healthz_and_a_first_interval() {
+    let app = TestApp::spawn().await;
+    let (s, _, v) = app.get("/healthz").await;
+    assert_eq!(s, 200);
+    assert_eq!(v["status"], "ok");
+    let v = ok(post(&app, json!({"data": [1.0, 2.0, 3.5, 4.0, 7.5], "seed": 3})).await);
+    assert_eq!(v["n"], 5);
+    assert_eq!(v["resamples"], 2000);
+    assert_eq!(v["seed"], 3);
+    assert!(v["token"].as_str().is_some_and(|t| t.starts_with(PREFIX)), "{v}");
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -164,10 +114,23 @@ async fn aggregated_data_with_a_negative_count_points_at_that_count() {
 #[tokio::test]
 async fn aggregated_data_with_mismatched_lengths_points_at_counts() {
     let app = TestApp::spawn().await;
-    invalid(
+    let v = invalid(
         post(&app, json!({"data": {"values": [1, 2, 3], "counts": [3, 1]}})).await,
         &["/data/counts"],
     );
+    assert_eq!(rule_at(&v, "/data/counts").as_deref(), Some("sample_shape"), "{v}");
+}
+
+#[tokio::test]
+async fn rows_above_the_server_limit_are_refused_by_the_row_limit_rule() {
+    let app = TestApp::spawn_with(|c| c.limits.max_rows = 5).await;
+    let v = invalid(post(&app, json!({"data": [1, 2, 3, 4, 5, 6]})).await, &["/data"]);
+    assert_eq!(rule_at(&v, "/data").as_deref(), Some("row_limit"), "{v}");
+    assert!(message_at(&v, "/data").contains('5'), "the message names the limit: {v}");
+    // Aggregated, the limit is on the distinct values, not on the observations.
+    let v = ok(post(&app, json!({"data": {"values": [1, 2, 3], "counts": [40, 50, 60]}, "seed": 1})).await);
+    assert_eq!(v["n"], 150);
+    ok(post(&app, json!({"data": [1, 2, 3, 4, 5], "seed": 1})).await);
 }
 
 #[tokio::test]
@@ -183,15 +146,17 @@ async fn columns_of_unequal_length_point_under_data_columns() {
     assert!(!ptrs.is_empty(), "{v}");
     assert!(ptrs.iter().all(|p| p.starts_with("/data/columns/")), "{v}");
     assert!(ptrs.contains(&"/data/columns/y".to_string()), "{v}");
+    assert_eq!(rule_at(&v, "/data/columns/y").as_deref(), Some("sample_shape"), "{v}");
 }
 
 #[tokio::test]
 async fn geometric_mean_points_at_each_non_positive_value() {
     let app = TestApp::spawn().await;
-    invalid(
+    let v = invalid(
         post(&app, json!({"data": [1.5, 0, 2, -3, 4], "statistic": "geometric_mean"})).await,
         &["/data/1", "/data/3"],
     );
+    assert_eq!(rule_at(&v, "/data/1").as_deref(), Some("statistic_domain"), "{v}");
     // Aggregated data: the pointer names the value.
     invalid(
         post(
@@ -216,7 +181,7 @@ async fn proportion_points_at_a_value_that_is_not_zero_or_one() {
 async fn ratio_naming_a_missing_column_points_at_the_parameter() {
     let app = TestApp::spawn().await;
     let cols = json!({"columns": {"x": [1, 2, 3, 4], "y": [2, 3, 4, 5]}});
-    invalid(
+    let v = invalid(
         post(
             &app,
             json!({"data": cols, "statistic": {"name": "ratio", "numerator": "x", "denominator": "z"}}),
@@ -224,6 +189,7 @@ async fn ratio_naming_a_missing_column_points_at_the_parameter() {
         .await,
         &["/statistic/denominator"],
     );
+    assert_eq!(rule_at(&v, "/statistic/denominator").as_deref(), Some("column_names"), "{v}");
     invalid(
         post(
             &app,
@@ -237,7 +203,7 @@ async fn ratio_naming_a_missing_column_points_at_the_parameter() {
 #[tokio::test]
 async fn correlation_on_one_column_data_points_at_data() {
     let app = TestApp::spawn().await;
-    invalid(
+    let v = invalid(
         post(
             &app,
             json!({"data": [1, 2, 3, 4, 5], "statistic": {"name": "correlation", "x": "x", "y": "y"}}),
@@ -245,6 +211,7 @@ async fn correlation_on_one_column_data_points_at_data() {
         .await,
         &["/data"],
     );
+    assert_eq!(rule_at(&v, "/data").as_deref(), Some("statistic_shape"), "{v}");
 }
 
 #[tokio::test]
@@ -295,22 +262,60 @@ async fn levels_outside_zero_one_are_422_at_their_index() {
 
 #[tokio::test]
 async fn bad_resamples_are_422_at_resamples() {
-    let app = TestApp::spawn_with(|c| c.max_resamples = 1000).await;
+    let app = TestApp::spawn_with(|c| c.limits.max_resamples = 1000).await;
     let data = json!([1, 2, 3, 4, 5]);
-    for r in [
-        json!(0),
-        json!(-5),
-        json!(2.5),
-        json!("many"),
-        json!(1001),
-        json!(null),
-        json!([100]),
-    ] {
-        invalid(post(&app, json!({"data": data, "resamples": r})).await, &["/resamples"]);
+    // Values the schema refuses: no rule is named.
+    for r in [json!(0), json!(1), json!(-5), json!(2.5), json!("many"), json!(null), json!([100])] {
+        let v = invalid(post(&app, json!({"data": data, "resamples": r})).await, &["/resamples"]);
+        assert_eq!(rule_at(&v, "/resamples"), None, "{r}: {v}");
     }
-    // The limit itself is allowed.
+    // Above this server's limit: a rule beyond the schema.
+    let v = invalid(post(&app, json!({"data": data, "resamples": 1001})).await, &["/resamples"]);
+    assert_eq!(rule_at(&v, "/resamples").as_deref(), Some("resample_limit"), "{v}");
+    assert!(message_at(&v, "/resamples").contains("1000"), "the message names the limit: {v}");
+    // The least number and the limit itself are allowed.
+    let v = ok(post(&app, json!({"data": data, "resamples": 2, "seed": 2})).await);
+    assert_eq!(v["resamples"], 2);
     let v = ok(post(&app, json!({"data": data, "resamples": 1000, "seed": 2})).await);
     assert_eq!(v["resamples"], 1000);
+}
+
+#[tokio::test]
+async fn integral_floats_are_accepted_for_whole_number_fields_and_fractions_are_refused() {
+    let app = TestApp::spawn().await;
+    let data = json!([1.5, 2.25, 3.0, 4.75, 5.5, 7.0]);
+    let floats = ok(post(
+        &app,
+        json!({"data": data, "resamples": 200.0, "seed": 3.0, "inner_resamples": 20.0, "time_limit_ms": 5000.0,
+               "methods": ["percentile", "studentized"]}),
+    )
+    .await);
+    let ints = ok(post(
+        &app,
+        json!({"data": data, "resamples": 200, "seed": 3, "inner_resamples": 20, "time_limit_ms": 5000,
+               "methods": ["percentile", "studentized"]}),
+    )
+    .await);
+    assert_eq!(floats["resamples"], 200);
+    assert_eq!(floats["seed"], 3);
+    assert_eq!(without_timing(floats), without_timing(ints), "200.0 means the same as 200");
+    // Aggregated counts, too.
+    let v = ok(post(&app, json!({"data": {"values": [1.0, 4.0], "counts": [2.0, 3.0]}, "seed": 1})).await);
+    assert_eq!(v["n"], 5);
+    assert!((v["estimate"].as_f64().unwrap() - 2.8).abs() < 1e-12, "(2·1 + 3·4) / 5: {v}");
+    // A fraction is refused at its pointer, every one at once.
+    invalid(
+        post(
+            &app,
+            json!({"data": data, "resamples": 2.5, "seed": 2.5, "inner_resamples": 20.5, "time_limit_ms": 2.5}),
+        )
+        .await,
+        &["/resamples", "/seed", "/inner_resamples", "/time_limit_ms"],
+    );
+    invalid(
+        post(&app, json!({"data": {"values": [1.0, 4.0], "counts": [2.5, 3.0]}})).await,
+        &["/data/counts/0"],
+    );
 }
 
 #[tokio::test]
@@ -331,12 +336,105 @@ async fn statistic_errors_point_at_the_name_or_parameter() {
         &["/statistic/p"],
     );
     invalid(
-        post(&app, json!({"data": data, "statistic": {"name": "mean", "p": 0.5}})).await,
-        &["/statistic/p"],
+        post(&app, json!({"data": data, "statistic": {"name": "trimmed_mean", "trim": "a"}})).await,
+        &["/statistic/trim"],
+    );
+    invalid(
+        post(
+            &app,
+            json!({"data": data, "statistic": {"name": "correlation", "x": "x", "y": "y", "kind": "kendall"}}),
+        )
+        .await,
+        &["/statistic/kind"],
     );
     // A valid quantile is accepted and echoed.
     let v = ok(post(&app, json!({"data": data, "statistic": {"name": "quantile", "p": 0.9}, "seed": 1})).await);
     assert_eq!(v["statistic"], json!({"name": "quantile", "p": 0.9}));
+}
+
+/// A parameter the statistic does not take is refused at its own pointer, so that a client can
+/// mark the field: `/statistic/p`, not `/statistic/p/p`. The parameters renamed in the
+/// restructuring (`ddof`, `scale`) are such parameters now.
+#[tokio::test]
+async fn an_unknown_statistic_parameter_is_refused_at_its_own_pointer() {
+    let app = TestApp::spawn().await;
+    let data = json!([1, 2, 3, 4, 5]);
+    invalid(
+        post(&app, json!({"data": data, "statistic": {"name": "mean", "p": 0.5}})).await,
+        &["/statistic/p"],
+    );
+    invalid(
+        post(&app, json!({"data": data, "statistic": {"name": "quantile", "p": 0.5, "q": 1}})).await,
+        &["/statistic/q"],
+    );
+    invalid(
+        post(&app, json!({"data": data, "statistic": {"name": "variance", "ddof": 1}})).await,
+        &["/statistic/ddof"],
+    );
+    invalid(
+        post(&app, json!({"data": data, "statistic": {"name": "mad", "scale": "normal"}})).await,
+        &["/statistic/scale"],
+    );
+    let (s, _, v) = app
+        .post(
+            "/v1/batch",
+            &json!({"jobs": [{"kind": "interval", "data": data, "statistic": {"name": "mean", "p": 1}}]}),
+        )
+        .await;
+    assert_eq!(s, 200, "{v}");
+    assert_eq!(pointers(&v["results"][0]["error"]), ["/jobs/0/statistic/p"], "{v}");
+}
+
+#[tokio::test]
+async fn variance_takes_a_divisor_and_mad_a_normalized_flag() {
+    let app = TestApp::spawn().await;
+    let data = json!([1, 2, 3, 4, 5]);
+    let estimate = |v: &Value| v["estimate"].as_f64().unwrap();
+    // Squared deviations of 1..5 add up to 10: the plug-in variance is 10/5, the unbiased 10/4.
+    let plug_in = ok(post(&app, json!({"data": data, "statistic": "variance", "seed": 1})).await);
+    assert_eq!(
+        plug_in["statistic"],
+        json!({"name": "variance", "divisor": "n"}),
+        "the default is echoed"
+    );
+    assert!((estimate(&plug_in) - 2.0).abs() < 1e-12, "{plug_in}");
+    let unbiased = ok(post(
+        &app,
+        json!({"data": data, "statistic": {"name": "variance", "divisor": "n-1"}, "seed": 1}),
+    )
+    .await);
+    assert!((estimate(&unbiased) - 2.5).abs() < 1e-12, "{unbiased}");
+    let sd = ok(post(
+        &app,
+        json!({"data": data, "statistic": {"name": "std_dev", "divisor": "n-1"}, "seed": 1}),
+    )
+    .await);
+    assert!((estimate(&sd) - 2.5f64.sqrt()).abs() < 1e-12, "{sd}");
+    // MAD of 1..9 is 2 (median 5, deviations 0,1,1,2,2,3,3,4,4); normalized, times 1.4826.
+    let nine = json!([1, 2, 3, 4, 5, 6, 7, 8, 9]);
+    let raw = ok(post(&app, json!({"data": nine, "statistic": "mad", "seed": 1})).await);
+    assert_eq!(
+        raw["statistic"],
+        json!({"name": "mad", "normalized": false}),
+        "the default is echoed"
+    );
+    assert!((estimate(&raw) - 2.0).abs() < 1e-12, "{raw}");
+    let normal = ok(post(
+        &app,
+        json!({"data": nine, "statistic": {"name": "mad", "normalized": true}, "seed": 1}),
+    )
+    .await);
+    assert!((estimate(&normal) - 2.0 * 1.4826).abs() < 1e-12, "{normal}");
+    // Other values are refused where they stand (the old names: see
+    // an_unknown_statistic_parameter_is_refused_at_its_own_pointer).
+    for (statistic, at) in [
+        (json!({"name": "variance", "divisor": 1}), "/statistic/divisor"),
+        (json!({"name": "std_dev", "divisor": "n-2"}), "/statistic/divisor"),
+        (json!({"name": "mad", "normalized": "yes"}), "/statistic/normalized"),
+    ] {
+        let v = invalid(post(&app, json!({"data": data, "statistic": statistic})).await, &[at]);
+        assert_eq!(rule_at(&v, at), None, "the schema refuses it: {v}");
+    }
 }
 
 #[tokio::test]
@@ -407,6 +505,13 @@ async fn unsupported_and_unknown_schemes_point_at_scheme_kind() {
         &["/scheme/kind"],
     );
     invalid(post(&app, json!({"data": data, "scheme": {}})).await, &["/scheme/kind"]);
+    // Only iid and bayesian exist; the message lists them.
+    let v = invalid(
+        post(&app, json!({"data": data, "scheme": {"kind": "stationary"}})).await,
+        &["/scheme/kind"],
+    );
+    let m = message_at(&v, "/scheme/kind");
+    assert!(m.contains("iid") && m.contains("bayesian"), "{m}");
     let v = ok(post(&app, json!({"data": data, "scheme": {"kind": "bayesian"}, "seed": 4})).await);
     assert_eq!(v["scheme"]["kind"], "bayesian");
 }
@@ -504,7 +609,7 @@ async fn a_token_replays_to_an_identical_response() {
     );
     assert_eq!(first["replicates"].as_array().unwrap().len(), 1000);
     let token = first["token"].as_str().expect("a token").to_string();
-    assert!(token.starts_with("bs1."), "{token}");
+    assert!(token.starts_with(PREFIX), "{token}");
 
     let again = ok(post(&app, json!({"data": data, "token": token})).await);
     assert_eq!(without_timing(again), without_timing(first.clone()), "replay differs");
@@ -514,17 +619,22 @@ async fn a_token_replays_to_an_identical_response() {
     other[3] += 1.0;
     problem(post(&app, json!({"data": other, "token": token})).await, 409, "data-mismatch");
 
-    // A token with parameters it stands in for is refused at each of them.
-    invalid(post(&app, json!({"data": data, "token": token, "seed": 1})).await, &["/seed"]);
-    invalid(
+    // A token with parameters it stands in for is refused at each of them, by the rule.
+    let v = invalid(post(&app, json!({"data": data, "token": token, "seed": 1})).await, &["/seed"]);
+    assert_eq!(rule_at(&v, "/seed").as_deref(), Some("token_replaces_parameters"), "{v}");
+    let v = invalid(
         post(&app, json!({"data": data, "token": token, "seed": 1, "levels": [0.8]})).await,
         &["/seed", "/levels"],
     );
+    assert_eq!(rule_at(&v, "/levels").as_deref(), Some("token_replaces_parameters"), "{v}");
 
-    // Garbage and wrong-typed tokens.
-    invalid(post(&app, json!({"data": data, "token": "abc"})).await, &["/token"]);
-    invalid(post(&app, json!({"data": data, "token": "bs1.!!!"})).await, &["/token"]);
-    invalid(post(&app, json!({"data": data, "token": 42})).await, &["/token"]);
+    // Garbage tokens break the token rule; a token of the wrong type breaks the schema.
+    for garbage in ["abc".to_string(), format!("{PREFIX}!!!"), "bs1.eyJ2IjoxfQ".to_string()] {
+        let v = invalid(post(&app, json!({"data": data, "token": garbage})).await, &["/token"]);
+        assert_eq!(rule_at(&v, "/token").as_deref(), Some("token_valid"), "{garbage}: {v}");
+    }
+    let v = invalid(post(&app, json!({"data": data, "token": 42})).await, &["/token"]);
+    assert_eq!(rule_at(&v, "/token"), None, "{v}");
 }
 
 #[tokio::test]
@@ -598,7 +708,8 @@ async fn exact_is_refused_for_large_samples_and_the_bayesian_scheme() {
     let app = TestApp::spawn().await;
     let v = invalid(post(&app, json!({"data": sample(20), "resamples": "exact"})).await, &["/resamples"]);
     assert!(message_at(&v, "/resamples").contains("exact"), "{v}");
-    invalid(
+    assert_eq!(rule_at(&v, "/resamples").as_deref(), Some("exact_too_many"), "{v}");
+    let v = invalid(
         post(
             &app,
             json!({"data": [1, 2, 3, 4, 5], "resamples": "exact", "scheme": {"kind": "bayesian"}}),
@@ -606,6 +717,7 @@ async fn exact_is_refused_for_large_samples_and_the_bayesian_scheme() {
         .await,
         &["/resamples"],
     );
+    assert_eq!(rule_at(&v, "/resamples").as_deref(), Some("exact_needs_iid"), "{v}");
 }
 
 #[tokio::test]
@@ -671,7 +783,7 @@ async fn a_time_limit_fails_fast_by_default_and_a_partial_result_is_a_prefix() {
 
 #[tokio::test]
 async fn the_work_limit_is_refused_before_any_work() {
-    let app = TestApp::spawn_with(|c| c.work_limit = 1e6).await;
+    let app = TestApp::spawn_with(|c| c.limits.work_limit = 1e6).await;
     let began = Instant::now();
     let v = problem(
         post(&app, json!({"data": sample(2000), "resamples": 2000, "seed": 1})).await,
@@ -689,7 +801,7 @@ async fn the_work_limit_is_refused_before_any_work() {
 }
 
 // ---------------------------------------------------------------------------------------------
-// Server bugs found by these tests (ignored until fixed; run with --ignored)
+// Regressions: server bugs these tests once found
 // ---------------------------------------------------------------------------------------------
 
 /// API.md: "Every error is an RFC 9457 problem document". A wrong method on a known route is an
@@ -708,7 +820,7 @@ async fn huge_finite_values_give_a_result_or_a_422_never_a_500() {
     // bandsaw refuses magnitudes above 1e75 (variances of such data would overflow), naming each.
     assert_eq!(s, 422, "{v}");
     assert_eq!(ct, "application/problem+json");
-    assert_eq!(common::pointers(&v), vec!["/data/0", "/data/1", "/data/2"]);
+    assert_eq!(pointers(&v), vec!["/data/0", "/data/1", "/data/2"]);
 }
 
 /// `target_mc_error` only applies with `"resamples": "auto"`; the server refuses it beside a
@@ -717,14 +829,16 @@ async fn huge_finite_values_give_a_result_or_a_422_never_a_500() {
 async fn target_mc_error_without_auto_resamples_is_refused() {
     let app = TestApp::spawn().await;
     let data = json!([1, 2, 3, 4, 5]);
-    invalid(
-        post(&app, json!({"data": data, "resamples": 2000, "target_mc_error": 0.01})).await,
-        &["/target_mc_error"],
-    );
-    invalid(
-        post(&app, json!({"data": data, "target_mc_error": 0.01})).await,
-        &["/target_mc_error"],
-    );
+    for body in [
+        json!({"data": data, "resamples": 2000, "target_mc_error": 0.01}),
+        json!({"data": data, "target_mc_error": 0.01}),
+    ] {
+        let v = invalid(post(&app, body).await, &["/target_mc_error"]);
+        assert_eq!(rule_at(&v, "/target_mc_error").as_deref(), Some("target_needs_auto"), "{v}");
+    }
+    // With "auto" it applies.
+    let v = ok(post(&app, json!({"data": data, "resamples": "auto", "target_mc_error": 0.05, "seed": 1})).await);
+    assert_eq!(v["complete"], true, "{v}");
 }
 
 /// A token is base64 of JSON, so an edited one must meet the same limits as a request.
@@ -732,25 +846,62 @@ async fn target_mc_error_without_auto_resamples_is_refused() {
 async fn an_edited_token_is_held_to_the_request_limits() {
     use base64::engine::general_purpose::URL_SAFE_NO_PAD;
     use base64::Engine as _;
-    let app = TestApp::spawn().await;
+    let app = TestApp::spawn_with(|c| c.limits.max_resamples = 5000).await;
     let data = json!([3.0, 1.5, 4.25, 1.0, 5.5, 9.0, 2.75]);
-    let (s, _, first) = post(&app, json!({"data": data, "seed": 9})).await;
-    assert_eq!(s, 200);
+    let first = ok(post(&app, json!({"data": data, "seed": 9})).await);
     let token = first["token"].as_str().unwrap();
-    let mut body: Value = serde_json::from_slice(&URL_SAFE_NO_PAD.decode(token.trim_start_matches("bs1.")).unwrap()).unwrap();
-    let reencode = |b: &Value| format!("bs1.{}", URL_SAFE_NO_PAD.encode(serde_json::to_vec(b).unwrap()));
-    // 300 levels (a request may ask for 20 at most).
-    body["levels"] = json!((1..=300).map(|i| i as f64 / 301.0).collect::<Vec<_>>());
-    invalid(post(&app, json!({"data": data, "token": reencode(&body)})).await, &["/token"]);
-    // One resample (a request needs at least 2).
-    body["levels"] = json!([0.95]);
-    body["resamples"] = json!(1);
-    invalid(post(&app, json!({"data": data, "token": reencode(&body)})).await, &["/token"]);
-    // Put back as it was, it replays.
-    body["resamples"] = json!(2000);
-    let (s, _, again) = post(&app, json!({"data": data, "token": reencode(&body)})).await;
-    assert_eq!(s, 200);
+    let original: Value = serde_json::from_slice(&URL_SAFE_NO_PAD.decode(token.strip_prefix(PREFIX).unwrap()).unwrap()).unwrap();
+    assert_eq!(original["drawn"], 2000, "{original}");
+    assert_eq!(original["params"]["resamples"], 2000, "{original}");
+    let reencode = |b: &Value| format!("{PREFIX}{}", URL_SAFE_NO_PAD.encode(serde_json::to_vec(b).unwrap()));
+    let edits: [(&str, Value); 4] = [
+        // One resample (a request needs at least 2).
+        ("/params/resamples", json!(1)),
+        // More resamples than this server allows.
+        ("/params/resamples", json!(6000)),
+        // A seed above 2^53 − 1.
+        ("/seed", json!(MAX_SEED + 1)),
+        // Too few inner resamples (a request needs at least 10).
+        ("/params/inner_resamples", json!(5)),
+    ];
+    for (at, value) in edits {
+        let mut body = original.clone();
+        *body.pointer_mut(at).unwrap() = value;
+        let v = invalid(post(&app, json!({"data": data, "token": reencode(&body)})).await, &["/token"]);
+        assert_eq!(rule_at(&v, "/token").as_deref(), Some("token_valid"), "{at}: {v}");
+    }
+    // Re-encoded as it was, it replays.
+    let again = ok(post(&app, json!({"data": data, "token": reencode(&original)})).await);
     assert_eq!(without_timing(again), without_timing(first));
+}
+
+/// The bounds of a request's lists, and the resample limit, hold for a token's parameters and
+/// for the number of resamples it says were drawn, too.
+#[tokio::test]
+async fn an_edited_token_is_held_to_the_list_bounds_and_the_resample_limit() {
+    use base64::engine::general_purpose::URL_SAFE_NO_PAD;
+    use base64::Engine as _;
+    let app = TestApp::spawn_with(|c| c.limits.max_resamples = 5000).await;
+    let data = json!([3.0, 1.5, 4.25, 1.0, 5.5, 9.0, 2.75]);
+    let first = ok(post(&app, json!({"data": data, "seed": 9})).await);
+    let token = first["token"].as_str().unwrap();
+    let original: Value = serde_json::from_slice(&URL_SAFE_NO_PAD.decode(token.strip_prefix(PREFIX).unwrap()).unwrap()).unwrap();
+    let reencode = |b: &Value| format!("{PREFIX}{}", URL_SAFE_NO_PAD.encode(serde_json::to_vec(b).unwrap()));
+    let edits: [(&str, Value); 4] = [
+        // 300 levels (a request may ask for 20 at most).
+        ("/params/levels", json!((1..=300).map(|i| i as f64 / 301.0).collect::<Vec<_>>())),
+        // No method (a request needs at least one).
+        ("/params/methods", json!([])),
+        // More resamples drawn than this server allows, or fewer than 2.
+        ("/drawn", json!(6000)),
+        ("/drawn", json!(1)),
+    ];
+    for (at, value) in edits {
+        let mut body = original.clone();
+        *body.pointer_mut(at).unwrap() = value;
+        let v = invalid(post(&app, json!({"data": data, "token": reencode(&body)})).await, &["/token"]);
+        assert_eq!(rule_at(&v, "/token").as_deref(), Some("token_valid"), "{at}: {v}");
+    }
 }
 
 /// Values with a zero count take no part in a resample, so they do not count towards the

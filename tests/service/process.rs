@@ -1,5 +1,6 @@
-//! Tests of the real binary as an operator runs it: graceful shutdown on SIGTERM with a request
-//! in flight, and structured logs that carry no data values.
+//! The real binary as an operator runs it: graceful shutdown on SIGTERM with a request in flight,
+//! logs that carry no data values and no colour codes when standard error is not a terminal,
+//! and each command's help listing only the flags that apply to it.
 
 use std::io::{BufRead, BufReader, Read};
 use std::process::{Child, Command, Stdio};
@@ -49,11 +50,13 @@ fn sigterm(child: &Child) {
 #[cfg(unix)]
 #[test]
 fn sigterm_during_a_request_lets_it_finish_then_exits_zero() {
-    let mut server = start(&[]);
+    // A grace period and a time limit that a loaded machine cannot reach: the test is about
+    // the request finishing, not about how long it takes.
+    let mut server = start(&["--shutdown-grace-ms", "120000"]);
     let url = format!("{}/v1/interval", server.base);
     let data: Vec<f64> = (0..20000).map(|i| ((i * 7919) % 1000) as f64).collect();
-    // About a second of work on two threads.
-    let body = json!({"data": data, "statistic": "median", "resamples": 60000, "seed": 5});
+    // Most of a second of work on two idle threads.
+    let body = json!({"data": data, "statistic": "median", "resamples": 6000, "seed": 5, "time_limit_ms": 60000});
     let request = std::thread::spawn(move || {
         let rt = tokio::runtime::Builder::new_current_thread().enable_all().build().unwrap();
         rt.block_on(async {
@@ -61,11 +64,23 @@ fn sigterm_during_a_request_lets_it_finish_then_exits_zero() {
             (r.status().as_u16(), r.json::<serde_json::Value>().await.unwrap())
         })
     });
-    std::thread::sleep(Duration::from_millis(300));
+    // Signal once the job is running (not after a guessed delay), so the request is in flight.
+    let rt = tokio::runtime::Builder::new_current_thread().enable_all().build().unwrap();
+    let metrics = format!("{}/metrics", server.base);
+    let waiting = Instant::now();
+    while !rt
+        .block_on(async { reqwest::get(&metrics).await.unwrap().text().await.unwrap() })
+        .lines()
+        .any(|l| l == "bandsaw_jobs_running 1")
+    {
+        assert!(!request.is_finished(), "the request finished before the job was seen running");
+        assert!(waiting.elapsed() < Duration::from_secs(30), "the job never started");
+        std::thread::sleep(Duration::from_millis(5));
+    }
     sigterm(&server.child);
     let (status, v) = request.join().unwrap();
     assert_eq!(status, 200, "{v}");
-    assert_eq!(v["resamples"], 60000);
+    assert_eq!(v["resamples"], 6000);
     let started = Instant::now();
     let exit = loop {
         if let Some(s) = server.child.try_wait().unwrap() {
@@ -132,4 +147,72 @@ fn a_log_line_per_request_and_no_data_values_in_it() {
             assert!(!logs.contains(&form), "the logs contain the data value {form}:\n{logs}");
         }
     }
+    assert!(
+        !logs.contains("\x1b["),
+        "standard error is a pipe, yet the logs carry ANSI escape codes:\n{logs:?}"
+    );
+}
+
+/// The default (pretty) log format, read through a pipe as a log collector reads it: plain
+/// text, no ANSI colour codes.
+#[cfg(unix)]
+#[test]
+fn pretty_logs_to_a_pipe_carry_no_colour_codes() {
+    let mut server = start(&[]);
+    let rt = tokio::runtime::Builder::new_current_thread().enable_all().build().unwrap();
+    rt.block_on(async {
+        let r = reqwest::Client::new()
+            .post(format!("{}/v1/interval", server.base))
+            .header("x-request-id", "pretty-check-1")
+            .json(&json!({"data": [1.5, 2.5, 4.0, 3.25], "seed": 1}))
+            .send()
+            .await
+            .unwrap();
+        assert_eq!(r.status().as_u16(), 200);
+    });
+    sigterm(&server.child);
+    let _ = server.child.wait();
+    let mut logs = String::new();
+    server.child.stderr.take().unwrap().read_to_string(&mut logs).unwrap();
+    assert!(logs.contains("pretty-check-1"), "no request line in {logs:?}");
+    assert!(
+        !logs.contains("\x1b["),
+        "standard error is a pipe, yet the logs carry ANSI escape codes:\n{logs:?}"
+    );
+}
+
+/// The text of `bandsaw <args>` (standard output), which must succeed.
+fn help_of(args: &[&str]) -> String {
+    let out = Command::new(env!("CARGO_BIN_EXE_bandsaw"))
+        .args(args)
+        .output()
+        .expect("the binary runs");
+    assert!(out.status.success(), "bandsaw {args:?}: {out:?}");
+    String::from_utf8(out.stdout).expect("UTF-8 help")
+}
+
+#[test]
+fn each_command_offers_only_the_flags_that_apply_to_it() {
+    let interval = help_of(&["interval", "--help"]);
+    for flag in ["--max-resamples", "--max-rows", "--work-limit", "--threads", "--input"] {
+        assert!(interval.contains(flag), "`interval --help` lacks {flag}:\n{interval}");
+    }
+    for server_only in [
+        "--listen",
+        "--api-keys",
+        "--api-key-file",
+        "--cors-origins",
+        "--queue",
+        "--max-body-bytes",
+    ] {
+        assert!(
+            !interval.contains(server_only),
+            "`interval --help` offers the server's {server_only}:\n{interval}"
+        );
+    }
+    let serve = help_of(&["serve", "--help"]);
+    for flag in ["--listen", "--api-keys", "--cors-origins", "--max-resamples", "--threads"] {
+        assert!(serve.contains(flag), "`serve --help` lacks {flag}:\n{serve}");
+    }
+    assert!(!serve.contains("--input"), "`serve --help` offers `interval`'s --input:\n{serve}");
 }

@@ -1,4 +1,5 @@
-//! Shared helpers for black-box tests: spawn the real application on port 0 and send it real HTTP requests.
+//! Shared helpers: spawn the real application on port 0, send it real HTTP requests, and read
+//! problem documents.
 //!
 //! Every response read through [`TestApp`] is checked against the OpenAPI document
 //! (`bandsaw::api::openapi`): its status must be documented for the operation, its content type
@@ -6,12 +7,11 @@
 //! A path that is not in the document must be a `NotFound` problem, and a method a documented
 //! path does not list a `MethodNotAllowed` problem. A failure panics with the JSON Pointer into
 //! the body and what is wrong there.
-#![allow(dead_code)]
 
 use std::collections::BTreeMap;
 use std::sync::OnceLock;
 
-use bandsaw::config::Config;
+use bandsaw::config::{Config, Threads};
 use bandsaw::server::Application;
 use serde_json::{json, Value};
 
@@ -30,7 +30,7 @@ impl TestApp {
     pub async fn spawn_with(f: impl FnOnce(&mut Config)) -> TestApp {
         let mut config = Config {
             listen: "127.0.0.1:0".into(),
-            threads: 2,
+            threads: Threads { threads: 2 },
             ..Config::default()
         };
         f(&mut config);
@@ -105,27 +105,27 @@ impl TestApp {
 
 /// One documented response: its name for messages and, per media type (its essence, without
 /// parameters), a validator of the body when the type is JSON.
-pub struct Documented {
-    pub name: String,
-    pub content: Vec<(String, Option<jsonschema::Validator>)>,
+struct Documented {
+    name: String,
+    content: Vec<(String, Option<jsonschema::Validator>)>,
 }
 
 /// The document's responses, built once per test binary.
-pub struct Contract {
+struct Contract {
     /// path → method (lowercase) → status key ("200", "default", …) → response.
-    pub operations: BTreeMap<String, BTreeMap<String, BTreeMap<String, Documented>>>,
-    pub not_found: Documented,
-    pub method_not_allowed: Documented,
+    operations: BTreeMap<String, BTreeMap<String, BTreeMap<String, Documented>>>,
+    not_found: Documented,
+    method_not_allowed: Documented,
 }
 
 const METHODS: [&str; 8] = ["get", "put", "post", "delete", "options", "head", "patch", "trace"];
 
 /// The media type without parameters, lowercased.
-pub fn essence(content_type: &str) -> String {
+fn essence(content_type: &str) -> String {
     content_type.split(';').next().unwrap_or("").trim().to_ascii_lowercase()
 }
 
-pub fn is_json(essence: &str) -> bool {
+fn is_json(essence: &str) -> bool {
     essence == "application/json" || (essence.starts_with("application/") && essence.ends_with("+json"))
 }
 
@@ -190,7 +190,7 @@ pub fn document() -> &'static Value {
     DOCUMENT.get_or_init(|| serde_json::from_str(&bandsaw::api::openapi::document_json()).expect("the document is JSON"))
 }
 
-pub fn contract() -> &'static Contract {
+fn contract() -> &'static Contract {
     static CONTRACT: OnceLock<Contract> = OnceLock::new();
     CONTRACT.get_or_init(|| {
         let doc = document();
@@ -225,7 +225,7 @@ pub fn contract() -> &'static Contract {
 
 /// Check one response against the document; panics with what does not match. `method` is
 /// lowercase, or `None` when unknown (then the path's only operation is assumed).
-pub fn check_response(method: Option<&str>, path: &str, status: u16, content_type: &str, body: &[u8]) {
+fn check_response(method: Option<&str>, path: &str, status: u16, content_type: &str, body: &[u8]) {
     let contract = contract();
     let path = path.split('?').next().unwrap_or(path);
     let shown = method.map_or("?".to_string(), str::to_uppercase);
@@ -271,7 +271,7 @@ pub fn check_response(method: Option<&str>, path: &str, status: u16, content_typ
 }
 
 /// Check a body against a documented response.
-pub fn check_body(expected: &Documented, content_type: &str, body: &[u8]) {
+fn check_body(expected: &Documented, content_type: &str, body: &[u8]) {
     if expected.content.is_empty() {
         return;
     }
@@ -330,4 +330,84 @@ pub fn without_timing(mut v: Value) -> Value {
         o.remove("elapsed_ms");
     }
     v
+}
+
+// ---------------------------------------------------------------------------------------------
+// Reading results and problem documents
+// ---------------------------------------------------------------------------------------------
+
+/// The JSON Pointer of the first `null` anywhere in `v`, if any.
+fn first_null(v: &Value, at: &str) -> Option<String> {
+    match v {
+        Value::Null => Some(at.to_string()),
+        Value::Array(items) => items.iter().enumerate().find_map(|(i, it)| first_null(it, &format!("{at}/{i}"))),
+        Value::Object(o) => o
+            .iter()
+            .find_map(|(k, it)| first_null(it, &format!("{at}/{}", k.replace('~', "~0").replace('/', "~1")))),
+        _ => None,
+    }
+}
+
+/// Assert a 200 JSON response without nulls and return its body.
+pub fn ok(resp: (u16, String, Value)) -> Value {
+    let (status, ct, v) = resp;
+    assert_eq!(status, 200, "expected 200, got {status}: {v}");
+    assert!(ct.starts_with("application/json"), "content-type {ct:?}");
+    assert!(v.is_object(), "the body is not a JSON object: {v}");
+    if let Some(at) = first_null(&v, "") {
+        panic!("the response has a null at {at:?}: {v}");
+    }
+    v
+}
+
+/// Assert a problem document with this status and slug; return it.
+pub fn problem(resp: (u16, String, Value), status: u16, slug: &str) -> Value {
+    let (s, ct, v) = resp;
+    assert_eq!(s, status, "expected {status} /problems/{slug}, got {s}: {v}");
+    assert_eq!(ct, "application/problem+json", "problem content-type for {v}");
+    assert_eq!(v["type"], format!("/problems/{slug}"), "problem type: {v}");
+    assert_eq!(v["status"], status, "problem status member: {v}");
+    assert!(v["title"].as_str().is_some_and(|t| !t.is_empty()), "problem title: {v}");
+    assert!(v["detail"].as_str().is_some_and(|t| !t.is_empty()), "problem detail: {v}");
+    v
+}
+
+/// Assert a 422 invalid-request problem whose pointers are exactly `expected` (in any order).
+pub fn invalid(resp: (u16, String, Value), expected: &[&str]) -> Value {
+    let v = problem(resp, 422, "invalid-request");
+    let mut got = pointers(&v);
+    got.sort();
+    let mut want: Vec<String> = expected.iter().map(|s| s.to_string()).collect();
+    want.sort();
+    assert_eq!(got, want, "pointers of {v}");
+    for e in v["errors"].as_array().unwrap() {
+        assert!(
+            e["message"].as_str().is_some_and(|m| !m.is_empty()),
+            "every error has a message: {v}"
+        );
+    }
+    v
+}
+
+/// The error at `pointer` of a problem document.
+fn error_at<'a>(v: &'a Value, pointer: &str) -> &'a Value {
+    v["errors"]
+        .as_array()
+        .and_then(|a| a.iter().find(|e| e["pointer"] == pointer))
+        .unwrap_or_else(|| panic!("no error at {pointer:?} in {v}"))
+}
+
+/// The message of the error at `pointer`.
+pub fn message_at(v: &Value, pointer: &str) -> String {
+    error_at(v, pointer)["message"]
+        .as_str()
+        .unwrap_or_else(|| panic!("no message at {pointer:?} in {v}"))
+        .to_string()
+}
+
+/// The rule that refused the field at `pointer` (`None` when the field breaks the schema itself).
+pub fn rule_at(v: &Value, pointer: &str) -> Option<String> {
+    error_at(v, pointer)
+        .get("rule")
+        .map(|r| r.as_str().unwrap_or_else(|| panic!("a rule is a name: {v}")).to_string())
 }

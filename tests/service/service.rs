@@ -1,11 +1,17 @@
-//! Black-box tests of the service around the engine: catalog, batch, readiness, metrics, load
-//! shedding, time limits, cancellation, API keys, panics, request ids, CORS and compression.
+//! The service around the engine: catalogue, batch, readiness, metrics, load shedding and the
+//! pool's admission bound, time limits, cancellation, API keys, panics, request ids, CORS and
+//! compression.
 
-mod common;
+use std::sync::Arc;
 use std::time::{Duration, Instant};
 
-use common::{pointers, TestApp};
+use bandsaw::api::pool::ComputePool;
+use bandsaw::config::Threads;
+use bandsaw::engine::statistic::StatisticSpec;
+use bandsaw::telemetry::Metrics;
 use serde_json::{json, Value};
+
+use crate::common::{invalid, pointers, problem, rule_at, without_timing, TestApp};
 
 /// Invented page load times (ms) of 200 visits.
 fn page_loads(n: usize) -> Vec<f64> {
@@ -43,8 +49,13 @@ fn slow_body() -> Value {
 #[tokio::test]
 async fn catalog_lists_the_catalogue_and_the_limits_in_force() {
     let app = TestApp::spawn_with(|c| {
-        c.max_rows = 5000;
-        c.max_resamples = 7000;
+        c.limits.max_rows = 5000;
+        c.limits.max_resamples = 7000;
+        c.limits.work_limit = 3e9;
+        c.limits.default_time_limit_ms = 4000;
+        c.limits.max_time_limit_ms = 9000;
+        c.limits.max_batch_jobs = 17;
+        c.max_body_bytes = 123_456;
         c.queue = 3;
     })
     .await;
@@ -56,9 +67,7 @@ async fn catalog_lists_the_catalogue_and_the_limits_in_force() {
         .iter()
         .map(|e| e["name"].as_str().unwrap())
         .collect();
-    for n in bandsaw::api::request::STATISTICS.iter().map(|(n, _)| *n) {
-        assert!(names.contains(&n), "{n} missing from the catalog");
-    }
+    assert_eq!(names, StatisticSpec::NAMES, "every statistic, in the order of the catalogue");
     let methods: Vec<&str> = v["methods"]
         .as_array()
         .unwrap()
@@ -66,18 +75,26 @@ async fn catalog_lists_the_catalogue_and_the_limits_in_force() {
         .map(|e| e["name"].as_str().unwrap())
         .collect();
     assert_eq!(methods, ["percentile", "basic", "normal", "bca", "studentized"]);
-    let schemes: Vec<(&str, bool)> = v["schemes"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|e| (e["kind"].as_str().unwrap(), e["available"].as_bool().unwrap()))
-        .collect();
-    assert!(schemes.contains(&("iid", true)) && schemes.contains(&("moving_block", false)));
-    assert_eq!(v["limits"]["max_rows"], 5000);
-    assert_eq!(v["limits"]["max_resamples"], 7000);
-    assert_eq!(v["limits"]["threads"], 2);
-    assert_eq!(v["limits"]["queue"], 3);
-    assert_eq!(v["limits"]["max_seed"], 9007199254740991u64);
+    let schemes = v["schemes"].as_array().unwrap();
+    let kinds: Vec<&str> = schemes.iter().map(|e| e["kind"].as_str().unwrap()).collect();
+    assert_eq!(kinds, ["iid", "bayesian"]);
+    for e in schemes {
+        let keys: Vec<&String> = e.as_object().unwrap().keys().collect();
+        assert_eq!(keys, ["kind", "description"], "{e}");
+        assert!(e["description"].as_str().is_some_and(|d| !d.is_empty()), "{e}");
+    }
+    let l = &v["limits"];
+    assert_eq!(l["max_rows"], 5000);
+    assert_eq!(l["max_resamples"], 7000);
+    assert_eq!(l["work_limit"].as_f64(), Some(3e9));
+    assert_eq!(l["default_time_limit_ms"], 4000);
+    assert_eq!(l["max_time_limit_ms"], 9000);
+    assert_eq!(l["max_batch_jobs"], 17);
+    assert_eq!(l["max_body_bytes"], 123_456);
+    assert_eq!(l["threads"], 2);
+    assert_eq!(l["queue"], 3);
+    assert_eq!(l["max_seed"], 9007199254740991u64);
+    assert_eq!(l["max_magnitude"].as_f64(), Some(1e75));
     // The quantile's parameter is documented with its type.
     let q = v["statistics"]
         .as_array()
@@ -111,39 +128,46 @@ async fn batch_answers_each_job_in_order_and_a_bad_job_does_not_sink_it() {
     assert_eq!(r[3]["ok"]["estimate"], 1.5);
     assert_eq!(pointers(&r[4]["error"]), vec!["/jobs/4/kind"]);
     assert_eq!(pointers(&r[5]["error"]), vec!["/jobs/5"]);
-    assert_eq!(v["adjust"], "none");
+    assert_eq!(v["multiplicity"], "none");
     // The same job alone gives the same answer as inside the batch (apart from timing).
     let (_, _, alone) = app.post("/v1/interval", &json!({"data": [1, 2, 3, 4, 5, 6], "seed": 1})).await;
-    assert_eq!(common::without_timing(alone), common::without_timing(r[0]["ok"].clone()));
+    assert_eq!(without_timing(alone), without_timing(r[0]["ok"].clone()));
 }
 
 #[tokio::test]
 async fn batch_refuses_bad_envelopes_and_too_much_work_before_starting() {
     let app = TestApp::spawn_with(|c| {
-        c.work_limit = 1e6;
-        c.max_batch_jobs = 3;
+        c.limits.work_limit = 1e6;
+        c.limits.max_batch_jobs = 3;
     })
     .await;
-    let (s, _, v) = app.post("/v1/batch", &json!({"jobs": [], "adjust": "sideways", "extra": 1})).await;
-    assert_eq!(s, 422);
-    let mut p = pointers(&v);
-    p.sort();
-    assert_eq!(p, vec!["/adjust", "/extra", "/jobs"]);
-    let (s, _, v) = app.post("/v1/batch", &json!({"jobs": [{}, {}, {}, {}]})).await;
-    assert_eq!((s, pointers(&v)), (422, vec!["/jobs".to_string()]));
+    invalid(
+        app.post("/v1/batch", &json!({"jobs": [], "multiplicity": "sideways", "extra": 1}))
+            .await,
+        &["/multiplicity", "/extra", "/jobs"],
+    );
+    // The old name of the multiplicity field is an unknown field.
+    invalid(
+        app.post(
+            "/v1/batch",
+            &json!({"jobs": [{"kind": "interval", "data": [1, 2]}], "adjust": "none"}),
+        )
+        .await,
+        &["/adjust"],
+    );
+    let v = invalid(app.post("/v1/batch", &json!({"jobs": [{}, {}, {}, {}]})).await, &["/jobs"]);
+    assert_eq!(rule_at(&v, "/jobs").as_deref(), Some("batch_limit"), "{v}");
     // Each job alone fits (300 rows × 2000 resamples = 6e5) but the three together do not.
     let job = json!({"kind": "interval", "data": page_loads(300), "resamples": 2000});
     let started = Instant::now();
-    let (s, _, v) = app.post("/v1/batch", &json!({"jobs": [job, job, job]})).await;
-    assert_eq!(s, 422);
-    assert_eq!(v["type"], "/problems/work-limit");
+    problem(app.post("/v1/batch", &json!({"jobs": [job, job, job]})).await, 422, "work-limit");
     assert!(started.elapsed() < Duration::from_secs(1), "a hang guard, not a speed test");
 }
 
 #[tokio::test]
 async fn a_flood_against_a_one_thread_two_deep_server_is_shed_with_retry_after() {
     let app = TestApp::spawn_with(|c| {
-        c.threads = 1;
+        c.threads = Threads { threads: 1 };
         c.queue = 2;
     })
     .await;
@@ -195,7 +219,7 @@ async fn a_300_ms_time_limit_is_answered_well_within_a_second() {
 
 #[tokio::test]
 async fn a_client_that_disconnects_cancels_its_job() {
-    let app = TestApp::spawn_with(|c| c.threads = 1).await;
+    let app = TestApp::spawn_with(|c| c.threads = Threads { threads: 1 }).await;
     let big = json!({"data": page_loads(20000), "statistic": "median", "resamples": 900000, "time_limit_ms": 60000});
     let r = app
         .client
@@ -401,8 +425,8 @@ async fn responses_are_compressed_when_the_client_asks() {
 
 #[tokio::test]
 async fn one_and_two_compute_threads_give_identical_responses() {
-    let one = TestApp::spawn_with(|c| c.threads = 1).await;
-    let two = TestApp::spawn_with(|c| c.threads = 2).await;
+    let one = TestApp::spawn_with(|c| c.threads = Threads { threads: 1 }).await;
+    let two = TestApp::spawn_with(|c| c.threads = Threads { threads: 2 }).await;
     let bodies = [
         json!({"data": page_loads(300), "statistic": "median", "seed": 11, "resamples": 3000,
                "methods": ["percentile", "basic", "normal", "bca", "studentized"], "levels": [0.9, 0.99],
@@ -415,6 +439,44 @@ async fn one_and_two_compute_threads_give_identical_responses() {
         let (s1, _, a) = one.post("/v1/interval", &body).await;
         let (s2, _, b) = two.post("/v1/interval", &body).await;
         assert_eq!((s1, s2), (200, 200));
-        assert_eq!(common::without_timing(a), common::without_timing(b));
+        assert_eq!(without_timing(a), without_timing(b));
+    }
+}
+
+/// The pool itself, without HTTP: at most threads + queue jobs are admitted at once, and the
+/// next is shed at once as `overloaded` rather than made to wait.
+#[tokio::test]
+async fn the_pool_admits_exactly_threads_plus_queue() {
+    let pool = Arc::new(ComputePool::new(1, 2, Arc::new(Metrics::new())).unwrap());
+    let (tx, rx) = std::sync::mpsc::channel::<()>();
+    let rx = Arc::new(std::sync::Mutex::new(rx));
+    let mut held = Vec::new();
+    for _ in 0..3 {
+        let (pool, rx) = (pool.clone(), rx.clone());
+        held.push(tokio::spawn(async move {
+            pool.run(move || {
+                let _ = rx.lock().unwrap().recv_timeout(Duration::from_secs(5));
+                Ok(())
+            })
+            .await
+        }));
+    }
+    for _ in 0..200 {
+        if pool.full() {
+            break;
+        }
+        tokio::time::sleep(Duration::from_millis(5)).await;
+    }
+    assert!(pool.full(), "three jobs fill a 1 + 2 pool");
+    let fourth = tokio::time::timeout(Duration::from_millis(500), pool.run(|| Ok(()))).await;
+    match fourth {
+        Ok(Err(p)) => assert_eq!(p.slug(), "overloaded"),
+        other => panic!("the fourth job must be shed at once, got {:?}", other.map(|r| r.is_ok())),
+    }
+    for _ in 0..3 {
+        tx.send(()).unwrap();
+    }
+    for h in held {
+        assert!(h.await.unwrap().is_ok());
     }
 }

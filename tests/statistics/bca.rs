@@ -9,10 +9,9 @@
 //! 2.0 / 4.0 for the BCa endpoints, 1.8 / 2.0 for the percentile ones and 0.029 for z0.
 //! Monte Carlo sds scale as 1/√B, which sets every tolerance below (4 sds of the difference).
 
-use bandsaw::engine::data::Sample;
-use bandsaw::engine::interval::Method;
-use bandsaw::engine::run::{run, Job, Resamples};
-use bandsaw::engine::statistic::StatisticSpec;
+use crate::common::*;
+use bandsaw::engine::plan::Resamples;
+use serde_json::json;
 
 const SPATIAL_A: [f64; 26] = [
     48., 36., 20., 29., 42., 42., 20., 42., 22., 41., 45., 14., 6., 0., 33., 28., 34., 4., 32., 24., 47., 41., 24., 26., 30., 41.,
@@ -26,11 +25,11 @@ fn sd_at(sd_2000: f64, b: f64) -> f64 {
 #[test]
 fn spatial_test_data_variance_matches_the_book_and_numpy() {
     let b = 40_000.0;
-    let mut job = Job::new(Sample::Column(SPATIAL_A.to_vec()), StatisticSpec::Variance { ddof: 0 }, 2026);
+    let mut job = Job::new(column(SPATIAL_A.to_vec()), spec(json!({"name": "variance"})), 2026);
     job.resamples = Resamples::Fixed(b as u64);
-    job.levels = vec![0.90];
+    job.levels = levels(&[0.90]);
     job.methods = vec![Method::Bca, Method::Percentile];
-    let o = run(&job).unwrap();
+    let o = run(&job);
 
     // θ̂ and the acceleration have no Monte Carlo error.
     assert!((o.estimate - 171.534).abs() < 5e-4, "θ̂ = {}", o.estimate);

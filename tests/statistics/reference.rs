@@ -1,18 +1,17 @@
-//! The engine against published and exact values (see ../shared/REFERENCES.md for sources).
+//! The engine against published and exact values (sources in docs/references.md).
 //!
 //! Monte Carlo tolerances: a bootstrap standard error from B replicates has relative standard
 //! deviation √((κ − 1)/(4B)), κ the replicate kurtosis (≈ 1/√(2B) for near-normal replicates;
 //! common practice). Each tolerance below is at least 4 such standard deviations, written next
 //! to its assertion.
 
-use bandsaw::engine::data::Sample;
-use bandsaw::engine::interval::Method;
-use bandsaw::engine::run::{run, Job, Outcome, Resamples};
-use bandsaw::engine::scheme::SchemeSpec;
-use bandsaw::engine::statistic::StatisticSpec;
+use crate::common::*;
+use bandsaw::engine::plan::Resamples;
+use serde_json::json;
+
 use statrs::distribution::{Binomial, DiscreteCDF};
 
-fn job(sample: Sample, stat: StatisticSpec, b: u64, seed: u64) -> Job {
+fn job(sample: Samples, stat: StatisticSpec, b: u64, seed: u64) -> Job {
     let mut j = Job::new(sample, stat, seed);
     j.resamples = Resamples::Fixed(b);
     j.methods = vec![Method::Percentile];
@@ -31,17 +30,14 @@ const EXPORT_SECONDS: [f64; 20] = [
 ];
 
 /// Law school data, Efron & Tibshirani (1993), Table 3.1.
-fn law_school() -> Sample {
+fn law_school() -> Samples {
     let lsat = vec![
         576., 635., 558., 578., 666., 580., 555., 661., 651., 605., 653., 575., 545., 572., 594.,
     ];
     let gpa = vec![
         3.39, 3.30, 2.81, 3.03, 3.44, 3.07, 3.00, 3.43, 3.36, 3.13, 3.12, 2.74, 2.76, 2.88, 2.96,
     ];
-    Sample::Columns {
-        names: vec!["lsat".into(), "gpa".into()],
-        columns: vec![lsat, gpa],
-    }
+    columns(vec!["lsat".into(), "gpa".into()], vec![lsat, gpa])
 }
 
 fn rel_se_of_se(o: &Outcome, kurtosis_bound: f64) -> f64 {
@@ -53,10 +49,10 @@ fn exact_enumeration_gives_the_ideal_standard_error_of_the_mean() {
     // Efron & Tibshirani (1993) ch. 5: the ideal bootstrap variance of the mean is σ̂²/n with the
     // plug-in σ̂². Exact enumeration has no Monte Carlo error, so this is an identity (1e-12).
     let x = EXPORT_SECONDS[..8].to_vec();
-    let mut j = job(Sample::Column(x.clone()), StatisticSpec::Mean, 0, 1);
+    let mut j = job(column(x.clone()), stat("mean"), 0, 1);
     j.resamples = Resamples::Exact;
-    let o = run(&j).unwrap();
-    assert_eq!(o.resamples, 6435); // C(15, 8), REFERENCES.md
+    let o = run(&j);
+    assert_eq!(o.resamples, 6435); // C(15, 8), docs/references.md
     let want = (plugin_var(&x) / 8.0).sqrt();
     assert!((o.standard_error - want).abs() < 1e-12 * want, "{} vs {want}", o.standard_error);
     assert!(o.bias.abs() < 1e-12, "the mean is unbiased under the bootstrap: {}", o.bias);
@@ -69,7 +65,7 @@ fn exact_enumeration_gives_the_ideal_standard_error_of_the_mean() {
 #[test]
 fn sampled_standard_error_of_the_mean_converges_to_sigma_over_root_n() {
     let x = EXPORT_SECONDS.to_vec();
-    let o = run(&job(Sample::Column(x.clone()), StatisticSpec::Mean, 100_000, 11)).unwrap();
+    let o = run(&job(column(x.clone()), stat("mean"), 100_000, 11));
     let want = (plugin_var(&x) / 20.0).sqrt();
     // Replicate means of 20 skewed values: kurtosis below 4, so the relative MC sd of the
     // standard error is at most √(3/(4B)) = 0.27 %; 4 of them is 1.1 %.
@@ -81,7 +77,7 @@ fn sampled_standard_error_of_the_mean_converges_to_sigma_over_root_n() {
 
 #[test]
 fn proportion_standard_error_is_binomial() {
-    // REFERENCES.md: the resampled count is Binomial(n, p̂), so se = √(p̂(1 − p̂)/n) exactly for
+    // docs/references.md: the resampled count is Binomial(n, p̂), so se = √(p̂(1 − p̂)/n) exactly for
     // the ideal bootstrap. 40 conversions out of 130 visits (invented).
     let mut x = vec![0.0; 130];
     for v in x.iter_mut().take(40) {
@@ -89,17 +85,14 @@ fn proportion_standard_error_is_binomial() {
     }
     let p: f64 = 40.0 / 130.0;
     let want = (p * (1.0 - p) / 130.0).sqrt();
-    let o = run(&job(Sample::Column(x.clone()), StatisticSpec::Proportion, 100_000, 5)).unwrap();
+    let o = run(&job(column(x.clone()), stat("proportion"), 100_000, 5));
     // Binomial(130, 0.31) proportions are near normal (kurtosis 3 − 0.02): relative MC sd
     // √(2/(4B)) = 0.22 %; tolerance 4 of them (using κ ≤ 3.1 to be safe).
     let tol = 4.0 * rel_se_of_se(&o, 3.1) * want;
     assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
     // Aggregated form of the same data: same distribution of replicates, drawn by binomials.
-    let agg = Sample::Aggregated {
-        values: vec![0.0, 1.0],
-        counts: vec![90, 40],
-    };
-    let o2 = run(&job(agg, StatisticSpec::Proportion, 100_000, 5)).unwrap();
+    let agg = aggregated(vec![0.0, 1.0], vec![90, 40]);
+    let o2 = run(&job(agg, stat("proportion"), 100_000, 5));
     assert!((o2.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o2.standard_error);
 }
 
@@ -108,9 +101,9 @@ fn bayesian_bootstrap_variance_of_the_mean_is_sigma_squared_over_n_plus_1() {
     // Rubin (1981): under Dirichlet(1,…,1) weights the posterior variance of the mean is
     // σ̂²/(n + 1) (plug-in σ̂²).
     let x = EXPORT_SECONDS.to_vec();
-    let mut j = job(Sample::Column(x.clone()), StatisticSpec::Mean, 100_000, 9);
-    j.scheme = SchemeSpec::Bayesian;
-    let o = run(&j).unwrap();
+    let mut j = job(column(x.clone()), stat("mean"), 100_000, 9);
+    j.scheme = SchemeSpec::Bayesian {};
+    let o = run(&j);
     let want = (plugin_var(&x) / 21.0).sqrt();
     let tol = 4.0 * rel_se_of_se(&o, 4.0) * want; // as for iid: kurtosis below 4, 1.1 %
     assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
@@ -119,14 +112,10 @@ fn bayesian_bootstrap_variance_of_the_mean_is_sigma_squared_over_n_plus_1() {
 #[test]
 fn law_school_correlation_and_its_standard_error() {
     // Efron & Tibshirani (1993) §3 and Table 3.1: r = 0.7764; the bootstrap standard error is
-    // 0.1333 (numpy, B = 200 000, REFERENCES.md) and about 0.132 at B = 3200 (the book, from
+    // 0.1333 (numpy, B = 200 000, docs/references.md) and about 0.132 at B = 3200 (the book, from
     // memory).
-    let stat = StatisticSpec::Correlation {
-        x: "lsat".into(),
-        y: "gpa".into(),
-        spearman: false,
-    };
-    let o = run(&job(law_school(), stat, 200_000, 3)).unwrap();
+    let stat = spec(json!({"name": "correlation", "x": "lsat", "y": "gpa", "kind": "pearson"}));
+    let o = run(&job(law_school(), stat, 200_000, 3));
     assert!((o.estimate - 0.7764).abs() < 5e-5, "{}", o.estimate);
     // Replicate correlations are skewed with kurtosis about 5 (measured here: see the engine's
     // own standard_error_mc_error); relative MC sd √(4/(4B)) = 0.22 % for each of our run and
@@ -156,7 +145,7 @@ fn percentile_interval_of_the_median_sits_on_the_order_statistics() {
         let sd = (q * (1.0 - q) / b as f64).sqrt();
         assert!(cdf_at(k - 1) < q - 4.0 * sd && cdf_at(k) > q + 4.0 * sd, "margins for k = {k}");
     }
-    let o = run(&job(Sample::Column(x.clone()), StatisticSpec::Median, b, 21)).unwrap();
+    let o = run(&job(column(x.clone()), stat("median"), b, 21));
     let iv = &o.intervals[0].endpoints;
     assert_eq!(iv.lower, x[k_lo as usize - 1]);
     assert_eq!(iv.upper, x[k_hi as usize - 1]);
@@ -174,18 +163,9 @@ fn aggregated_histogram_data_resample_like_the_expanded_rows() {
         .zip(&counts)
         .flat_map(|(v, c)| std::iter::repeat_n(*v, *c as usize))
         .collect();
-    let stat = StatisticSpec::Quantile { p: 0.9 };
-    let a = run(&job(
-        Sample::Aggregated {
-            values: values.clone(),
-            counts: counts.clone(),
-        },
-        stat.clone(),
-        20_000,
-        1,
-    ))
-    .unwrap();
-    let r = run(&job(Sample::Column(rows), stat, 20_000, 2)).unwrap();
+    let stat = spec(json!({"name": "quantile", "p": 0.9}));
+    let a = run(&job(aggregated(values.clone(), counts.clone()), stat.clone(), 20_000, 1));
+    let r = run(&job(column(rows), stat, 20_000, 2));
     assert_eq!(a.estimate, r.estimate);
     let tol = 4.0 * (a.standard_error_mc_error.powi(2) + r.standard_error_mc_error.powi(2)).sqrt();
     assert!(
@@ -194,4 +174,75 @@ fn aggregated_histogram_data_resample_like_the_expanded_rows() {
         a.standard_error,
         r.standard_error
     );
+}
+
+/// Mouse survival times (days), Efron & Tibshirani (1993), Table 2.1.
+const MOUSE_TREATMENT: [f64; 7] = [94., 197., 16., 38., 99., 141., 23.];
+const MOUSE_CONTROL: [f64; 9] = [52., 104., 146., 10., 51., 30., 40., 27., 46.];
+
+#[test]
+fn mouse_data_difference_of_means_has_the_exact_standard_error_26_908() {
+    // docs/references.md: difference of means 86.86 − 56.22 = 30.63, whose exact bootstrap
+    // standard error (plug-in variances) is √(σ̂₁²/n₁ + σ̂₂²/n₂) = 26.908. Each sample is
+    // resampled from its own streams.
+    let want = (plugin_var(&MOUSE_TREATMENT) / 7.0 + plugin_var(&MOUSE_CONTROL) / 9.0).sqrt();
+    assert!((want - 26.908).abs() < 5e-4, "{want}");
+    let samples = Samples::Two {
+        baseline: Sample::column(MOUSE_CONTROL.to_vec()).unwrap(),
+        candidate: Sample::column(MOUSE_TREATMENT.to_vec()).unwrap(),
+        contrast: bandsaw::engine::job::Contrast::Difference,
+    };
+    let mut j = Job::new(samples, stat("mean"), 19);
+    j.resamples = Resamples::Fixed(100_000);
+    j.methods = vec![Method::Percentile, Method::Bca, Method::Studentized];
+    let o = run(&j);
+    assert!((o.estimate - 30.6349).abs() < 1e-3, "{}", o.estimate);
+    assert_eq!(o.sample_estimates.map(|(b, c)| (b.round(), c.round())), Some((56.0, 87.0)));
+    // The mean of a resample is exact in its moments: the Monte Carlo error of the standard
+    // error is the reported one (relative ≈ 1/√(2B) = 0.22 %); tolerance 4 of them.
+    let tol = 4.0 * o.standard_error_mc_error;
+    assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
+    // With analytic standard errors on both sides the studentized interval has its ŝe from
+    // them: the interval is centred near the estimate and about ±2 ŝe wide.
+    let t = o.intervals.iter().find(|iv| iv.method == Method::Studentized).unwrap();
+    assert!(t.endpoints.lower < o.estimate && o.estimate < t.endpoints.upper);
+    assert!(
+        o.diagnostics.acceleration.is_some_and(|a| a.abs() < 0.2),
+        "{:?}",
+        o.diagnostics.acceleration
+    );
+}
+
+#[test]
+fn two_samples_replay_bit_for_bit_and_each_sample_has_its_own_streams() {
+    let two = |seed| {
+        let mut j = Job::new(
+            Samples::Two {
+                baseline: Sample::column(MOUSE_CONTROL.to_vec()).unwrap(),
+                candidate: Sample::column(MOUSE_TREATMENT.to_vec()).unwrap(),
+                contrast: bandsaw::engine::job::Contrast::Ratio,
+            },
+            stat("median"),
+            seed,
+        );
+        j.resamples = Resamples::Fixed(2000);
+        run(&j)
+    };
+    assert_eq!(two(5), two(5));
+    assert_ne!(two(5).standard_error, two(6).standard_error);
+    // The same data on both sides: the ratio is 1, but the two sides are drawn from different
+    // streams, so the replicates are not all 1.
+    let mut j = Job::new(
+        Samples::Two {
+            baseline: Sample::column(MOUSE_CONTROL.to_vec()).unwrap(),
+            candidate: Sample::column(MOUSE_CONTROL.to_vec()).unwrap(),
+            contrast: bandsaw::engine::job::Contrast::Ratio,
+        },
+        stat("mean"),
+        5,
+    );
+    j.resamples = Resamples::Fixed(500);
+    let o = run(&j);
+    assert_eq!(o.estimate, 1.0);
+    assert!(o.standard_error > 0.05, "{}", o.standard_error);
 }

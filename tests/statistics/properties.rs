@@ -1,11 +1,9 @@
 //! Exact properties of the engine: determinism across thread counts, prefixes, equivariance,
 //! sane answers on degenerate data, and calibrated Monte Carlo errors.
 
-use bandsaw::engine::data::Sample;
-use bandsaw::engine::interval::Method;
-use bandsaw::engine::run::{run, Include, Job, OnTimeLimit, Outcome, Resamples};
-use bandsaw::engine::scheme::SchemeSpec;
-use bandsaw::engine::statistic::StatisticSpec;
+use crate::common::*;
+use bandsaw::engine::plan::Resamples;
+use serde_json::json;
 
 const ALL: [Method; 5] = [Method::Percentile, Method::Basic, Method::Normal, Method::Bca, Method::Studentized];
 
@@ -20,64 +18,47 @@ fn on_threads(threads: usize, job: &Job) -> Outcome {
         .num_threads(threads)
         .build()
         .unwrap()
-        .install(|| run(job).unwrap())
+        .install(|| run(job))
 }
 
-fn job(sample: Sample, stat: StatisticSpec, b: u64) -> Job {
+fn job(sample: Samples, stat: StatisticSpec, b: u64) -> Job {
     let mut j = Job::new(sample, stat, 424242);
     j.resamples = Resamples::Fixed(b);
     j.methods = ALL.to_vec();
-    j.levels = vec![0.8, 0.95];
-    j.include = Include {
-        histogram: true,
-        cdf: true,
-        replicates: true,
-    };
+    j.levels = levels(&[0.8, 0.95]);
+    j.include = Include::ALL.to_vec();
     j
 }
 
-fn columns() -> Sample {
+fn sales() -> Samples {
     let x: Vec<f64> = (0..60).map(|i| (i as f64 * 0.37).sin() * 10.0 + i as f64).collect();
     let y: Vec<f64> = x.iter().enumerate().map(|(i, v)| 2.0 * v + ((i * 7919) % 13) as f64).collect();
-    Sample::Columns {
-        names: vec!["visits".into(), "revenue".into()],
-        columns: vec![x, y],
-    }
+    columns(vec!["visits".into(), "revenue".into()], vec![x, y])
 }
 
 #[test]
 fn results_are_identical_on_one_and_two_threads() {
     let cases = vec![
-        job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 5000),
-        job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Median, 3000), // nested studentized
+        job(column(BASKETS.to_vec()), stat("mean"), 5000),
+        job(column(BASKETS.to_vec()), stat("median"), 3000), // nested studentized
         job(
-            Sample::Aggregated {
-                values: vec![1., 2., 5., 9.],
-                counts: vec![40, 25, 9, 2],
-            },
-            StatisticSpec::Quantile { p: 0.9 },
+            aggregated(vec![1., 2., 5., 9.], vec![40, 25, 9, 2]),
+            spec(json!({"name": "quantile", "p": 0.9})),
             3000,
         ),
         job(
-            columns(),
-            StatisticSpec::Correlation {
-                x: "visits".into(),
-                y: "revenue".into(),
-                spearman: true,
-            },
+            sales(),
+            spec(json!({"name": "correlation", "x": "visits", "y": "revenue", "kind": "spearman"})),
             2000,
         ),
         job(
-            columns(),
-            StatisticSpec::Ratio {
-                numerator: "revenue".into(),
-                denominator: "visits".into(),
-            },
+            sales(),
+            spec(json!({"name": "ratio", "numerator": "revenue", "denominator": "visits"})),
             2000,
         ),
         {
-            let mut j = job(Sample::Column(BASKETS.to_vec()), StatisticSpec::TrimmedMean { trim: 0.1 }, 2000);
-            j.scheme = SchemeSpec::Bayesian;
+            let mut j = job(column(BASKETS.to_vec()), spec(json!({"name": "trimmed_mean", "trim": 0.1})), 2000);
+            j.scheme = SchemeSpec::Bayesian {};
             j
         },
     ];
@@ -90,22 +71,25 @@ fn results_are_identical_on_one_and_two_threads() {
 
 #[test]
 fn a_shorter_run_is_a_prefix_of_a_longer_one() {
-    let short = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 1234)).unwrap();
-    let long = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 5000)).unwrap();
-    assert_eq!(short.replicates.as_ref().unwrap()[..], long.replicates.as_ref().unwrap()[..1234]);
+    let short = run(&job(column(BASKETS.to_vec()), stat("mean"), 1234));
+    let long = run(&job(column(BASKETS.to_vec()), stat("mean"), 5000));
+    assert_eq!(
+        short.extras.replicates.as_ref().unwrap()[..],
+        long.extras.replicates.as_ref().unwrap()[..1234]
+    );
 }
 
 #[test]
 fn auto_equals_a_fixed_run_of_the_size_it_chose() {
-    let mut a = job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 0);
+    let mut a = job(column(BASKETS.to_vec()), stat("mean"), 0);
     a.resamples = Resamples::Auto { target: 0.05 };
-    let auto = run(&a).unwrap();
+    let auto = run(&a);
     assert!(
-        auto.resamples >= 1000 && auto.resamples.is_power_of_two() || auto.resamples % 1000 == 0,
+        auto.resamples >= 1000 && auto.resamples.is_power_of_two() || auto.resamples.is_multiple_of(1000),
         "{}",
         auto.resamples
     );
-    let fixed = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, auto.resamples)).unwrap();
+    let fixed = run(&job(column(BASKETS.to_vec()), stat("mean"), auto.resamples));
     assert_eq!(auto.intervals, fixed.intervals);
     assert_eq!(auto.standard_error, fixed.standard_error);
     // And it met its target: every endpoint's Monte Carlo error at most 5 % of the standard error.
@@ -117,36 +101,38 @@ fn auto_equals_a_fixed_run_of_the_size_it_chose() {
 #[test]
 fn a_partial_result_is_the_full_result_of_its_prefix() {
     let mut j = job(
-        Sample::Column((0..3000).map(|i| ((i * 7) % 101) as f64).collect()),
-        StatisticSpec::Median,
+        column((0..3000).map(|i| ((i * 7) % 101) as f64).collect()),
+        stat("median"),
         1_000_000,
     );
     j.methods = vec![Method::Percentile, Method::Bca];
-    j.include = Include::default();
-    j.deadline = Some(std::time::Instant::now() + std::time::Duration::from_millis(300));
+    j.include = Vec::new();
     j.on_time_limit = OnTimeLimit::Partial;
-    let partial = run(&j).unwrap();
+    let budget = Budget {
+        deadline: Some(std::time::Instant::now() + std::time::Duration::from_millis(300)),
+        ..Budget::default()
+    };
+    let partial = try_run_within(&j, &budget).unwrap();
     assert!(!partial.complete && partial.resamples < 1_000_000);
     let mut f = j.clone();
-    f.deadline = None;
     f.resamples = Resamples::Fixed(partial.resamples);
-    let full = run(&f).unwrap();
+    let full = run(&f);
     assert_eq!(partial.intervals, full.intervals);
     assert_eq!(partial.standard_error, full.standard_error);
 }
 
 fn with(sample_x: Vec<f64>, stat: StatisticSpec) -> Outcome {
-    run(&job(Sample::Column(sample_x), stat, 3000)).unwrap()
+    run(&job(column(sample_x), stat, 3000))
 }
 
 #[test]
 fn shifting_the_data_shifts_location_intervals() {
     let c = 1000.25;
     for stat in [
-        StatisticSpec::Mean,
-        StatisticSpec::Median,
-        StatisticSpec::Quantile { p: 0.8 },
-        StatisticSpec::TrimmedMean { trim: 0.2 },
+        stat("mean"),
+        stat("median"),
+        spec(json!({"name": "quantile", "p": 0.8})),
+        spec(json!({"name": "trimmed_mean", "trim": 0.2})),
     ] {
         let a = with(BASKETS.to_vec(), stat.clone());
         let b = with(BASKETS.iter().map(|v| v + c).collect(), stat.clone());
@@ -173,12 +159,12 @@ fn scaling_the_data_scales_the_intervals() {
     // endpoints scale bit for bit; methods that go through Φ, powers or square roots agree to
     // 1e-12.
     for (stat, power) in [
-        (StatisticSpec::Mean, 1),
-        (StatisticSpec::Median, 1),
-        (StatisticSpec::StdDev { ddof: 1 }, 1),
-        (StatisticSpec::Mad { normal_scale: true }, 1),
-        (StatisticSpec::Iqr, 1),
-        (StatisticSpec::Variance { ddof: 0 }, 2),
+        (stat("mean"), 1),
+        (stat("median"), 1),
+        (spec(json!({"name": "std_dev", "divisor": "n-1"})), 1),
+        (spec(json!({"name": "mad", "normalized": true})), 1),
+        (stat("iqr"), 1),
+        (spec(json!({"name": "variance"})), 2),
     ] {
         let k = 2f64.powi(power);
         let a = with(BASKETS.to_vec(), stat.clone());
@@ -222,11 +208,11 @@ fn assert_all_finite(o: &Outcome, what: &str) {
             iv.endpoints.upper_mc_error,
         ]);
     }
-    if let Some(h) = &o.histogram {
+    if let Some(h) = &o.extras.histogram {
         nums.extend(h.edges.iter().copied());
         nums.extend(h.mass.iter().copied());
     }
-    if let Some(c) = &o.cdf {
+    if let Some(c) = &o.extras.cdf {
         nums.extend(c.values.iter().chain(&c.probabilities).copied());
     }
     assert!(nums.iter().all(|v| v.is_finite()), "{what}: non-finite number in {o:?}");
@@ -235,27 +221,27 @@ fn assert_all_finite(o: &Outcome, what: &str) {
 #[test]
 fn constant_data_gives_zero_width_intervals_and_a_warning() {
     let stats = [
-        StatisticSpec::Mean,
-        StatisticSpec::Median,
-        StatisticSpec::Quantile { p: 0.95 },
-        StatisticSpec::TrimmedMean { trim: 0.1 },
-        StatisticSpec::Variance { ddof: 1 },
-        StatisticSpec::StdDev { ddof: 0 },
-        StatisticSpec::Mad { normal_scale: false },
-        StatisticSpec::Iqr,
-        StatisticSpec::GeometricMean,
-        StatisticSpec::CoefficientOfVariation,
-        StatisticSpec::Proportion,
+        stat("mean"),
+        stat("median"),
+        spec(json!({"name": "quantile", "p": 0.95})),
+        spec(json!({"name": "trimmed_mean", "trim": 0.1})),
+        spec(json!({"name": "variance", "divisor": "n-1"})),
+        spec(json!({"name": "std_dev"})),
+        spec(json!({"name": "mad", "normalized": false})),
+        stat("iqr"),
+        stat("geometric_mean"),
+        stat("coefficient_of_variation"),
+        stat("proportion"),
     ];
     for stat in stats {
-        let o = run(&job(Sample::Column(vec![1.0; 30]), stat.clone(), 500)).unwrap();
+        let o = run(&job(column(vec![1.0; 30]), stat.clone(), 500));
         assert_all_finite(&o, &format!("{stat:?}"));
         assert_eq!(o.standard_error, 0.0, "{stat:?}");
         for iv in &o.intervals {
             assert_eq!(iv.endpoints.lower, o.estimate, "{stat:?} {:?}", iv.method);
             assert_eq!(iv.endpoints.upper, o.estimate, "{stat:?} {:?}", iv.method);
         }
-        assert!(o.diagnostics.warnings.iter().any(|w| w.code == "constant_data"), "{stat:?}");
+        assert!(o.diagnostics.warnings.iter().any(|w| w.code.name() == "constant_data"), "{stat:?}");
     }
 }
 
@@ -263,14 +249,14 @@ fn constant_data_gives_zero_width_intervals_and_a_warning() {
 fn tiny_and_lumpy_samples_give_finite_answers_with_warnings() {
     for x in [vec![3.0, 4.0], vec![1.0, 1.0, 1.0, 2.0], vec![0.0, 0.0, 0.0, 1.0, 0.0, 0.0]] {
         for stat in [
-            StatisticSpec::Mean,
-            StatisticSpec::Median,
-            StatisticSpec::Mad { normal_scale: false },
-            StatisticSpec::StdDev { ddof: 0 },
+            stat("mean"),
+            stat("median"),
+            spec(json!({"name": "mad", "normalized": false})),
+            spec(json!({"name": "std_dev"})),
         ] {
-            let o = run(&job(Sample::Column(x.clone()), stat.clone(), 400)).unwrap();
+            let o = run(&job(column(x.clone()), stat.clone(), 400));
             assert_all_finite(&o, &format!("{stat:?} on {x:?}"));
-            let codes: Vec<&str> = o.diagnostics.warnings.iter().map(|w| w.code).collect();
+            let codes: Vec<&str> = o.diagnostics.warnings.iter().map(|w| w.code.name()).collect();
             assert!(codes.contains(&"small_sample"), "{stat:?} on {x:?}: {codes:?}");
             assert!(codes.contains(&"few_distinct_replicates"), "{stat:?} on {x:?}: {codes:?}");
         }
@@ -279,20 +265,20 @@ fn tiny_and_lumpy_samples_give_finite_answers_with_warnings() {
 
 #[test]
 fn diagnostics_flag_extremes_skew_bias_tails_and_serial_correlation() {
-    let codes = |o: &Outcome| o.diagnostics.warnings.iter().map(|w| w.code).collect::<Vec<_>>();
+    let codes = |o: &Outcome| o.diagnostics.warnings.iter().map(|w| w.code.name()).collect::<Vec<_>>();
     // A 0.99 quantile of 60 values reads the extremes.
     let x: Vec<f64> = (0..60).map(|i| (i as f64).powf(1.5)).collect();
-    let o = with(x.clone(), StatisticSpec::Quantile { p: 0.99 });
+    let o = with(x.clone(), spec(json!({"name": "quantile", "p": 0.99})));
     assert!(codes(&o).contains(&"extreme_quantile"));
     // One huge value among 20 ones: the resampled geometric mean is 2^k, k ~ Binomial(20, 1/20)
     // copies of it drawn, a strongly skewed and upward-biased replicate distribution.
     let mut heavy = vec![1.0; 20];
     heavy[7] = 2f64.powi(20);
-    let o = with(heavy, StatisticSpec::GeometricMean);
+    let o = with(heavy, stat("geometric_mean"));
     assert!(codes(&o).contains(&"skewed_replicates"), "{:?}", codes(&o));
     // The plug-in variance of n values has bootstrap bias −σ̂²/n against a standard error of
     // about σ̂²·√(2/n) (for light tails): 1/√(2n) = 0.32 standard errors for n = 5.
-    let o = with(vec![1.0, 2.0, 3.0, 4.0, 5.0], StatisticSpec::Variance { ddof: 0 });
+    let o = with(vec![1.0, 2.0, 3.0, 4.0, 5.0], spec(json!({"name": "variance"})));
     assert!(
         codes(&o).contains(&"large_bias"),
         "{:?} bias {} se {}",
@@ -301,14 +287,14 @@ fn diagnostics_flag_extremes_skew_bias_tails_and_serial_correlation() {
         o.standard_error
     );
     // 200 resamples leave 5 replicates in each tail of a 95 % interval.
-    let o = run(&job(Sample::Column(BASKETS.to_vec()), StatisticSpec::Mean, 200)).unwrap();
+    let o = run(&job(column(BASKETS.to_vec()), stat("mean"), 200));
     assert!(codes(&o).contains(&"too_few_resamples"));
     // A trending series, in time order, is serially correlated.
     let trend: Vec<f64> = (0..100).map(|i| i as f64 + ((i * 37) % 11) as f64).collect();
-    let o = with(trend, StatisticSpec::Mean);
+    let o = with(trend, stat("mean"));
     assert!(codes(&o).contains(&"serial_correlation"));
     // Independent-looking data raises none of these.
-    let o = with(BASKETS.to_vec(), StatisticSpec::Median);
+    let o = with(BASKETS.to_vec(), stat("median"));
     for c in ["extreme_quantile", "too_few_resamples", "serial_correlation", "constant_data"] {
         assert!(!codes(&o).contains(&c), "{c} on baskets: {:?}", codes(&o));
     }
@@ -326,10 +312,10 @@ fn reported_monte_carlo_errors_match_the_spread_across_seeds() {
     let mut ses = Vec::new();
     let mut se_mc = 0.0;
     for seed in 0..runs {
-        let mut j = Job::new(Sample::Column(x.clone()), StatisticSpec::Mean, 1000 + seed);
+        let mut j = Job::new(column(x.clone()), stat("mean"), 1000 + seed);
         j.resamples = Resamples::Fixed(1000);
         j.methods = vec![Method::Percentile, Method::Normal, Method::Bca];
-        let o = run(&j).unwrap();
+        let o = run(&j);
         for k in 0..3 {
             lower[k].push(o.intervals[k].endpoints.lower);
             reported[k] += o.intervals[k].endpoints.lower_mc_error / runs as f64;
@@ -364,12 +350,12 @@ fn the_largest_accepted_magnitudes_give_finite_answers() {
     // BCa acceleration. 1e75 is the API's bound (request::MAX_MAGNITUDE).
     let x = vec![0.99999, 0.0, 8.4e74, -5.6e16, -2.2e74, -5.4e16, -6.2e74, 1e75, -1e75, 3.3e74];
     for stat in [
-        StatisticSpec::Mean,
-        StatisticSpec::Variance { ddof: 1 },
-        StatisticSpec::StdDev { ddof: 0 },
-        StatisticSpec::Median,
+        stat("mean"),
+        spec(json!({"name": "variance", "divisor": "n-1"})),
+        spec(json!({"name": "std_dev"})),
+        stat("median"),
     ] {
-        let o = run(&job(Sample::Column(x.clone()), stat.clone(), 500)).unwrap();
+        let o = run(&job(column(x.clone()), stat.clone(), 500));
         assert_all_finite(&o, &format!("{stat:?}"));
     }
 }
@@ -379,14 +365,14 @@ fn aggregated_data_with_huge_counts_stays_in_o_of_distinct_values() {
     // A latency histogram of a hundred billion requests: every path (iid draws, the jackknife,
     // the nested bootstrap of studentized) must work on the 4 distinct values, never on the
     // expanded rows, or this test would run out of memory.
-    let sample = Sample::Aggregated {
-        values: vec![5.0, 12.0, 40.0, 250.0],
-        counts: vec![60_000_000_000, 30_000_000_000, 9_000_000_000, 1_000_000_000],
-    };
-    let mut j = job(sample, StatisticSpec::Median, 300);
-    j.include = Include::default();
-    let o = run(&j).unwrap();
-    assert_eq!(o.n, 100_000_000_000);
+    let sample = aggregated(
+        vec![5.0, 12.0, 40.0, 250.0],
+        vec![60_000_000_000, 30_000_000_000, 9_000_000_000, 1_000_000_000],
+    );
+    let mut j = job(sample, stat("median"), 300);
+    j.include = Vec::new();
+    let o = run(&j);
+    assert_eq!(o.n, [100_000_000_000]);
     assert_eq!(o.estimate, 5.0);
     assert_all_finite(&o, "huge counts");
 }
@@ -397,13 +383,16 @@ fn a_deadline_is_noticed_inside_a_long_first_wave_and_inside_the_jackknife() {
     // One replicate here is a 1000-deep nested bootstrap of 20 000 rows (about 2e7 row-draws):
     // the deadline must still be noticed within a few inner resamples.
     let x: Vec<f64> = (0..20_000).map(|i| ((i * 7919) % 10007) as f64).collect();
-    let mut j = job(Sample::Column(x.clone()), StatisticSpec::Median, 256);
+    let mut j = job(column(x.clone()), stat("median"), 256);
     j.methods = vec![Method::Studentized];
-    j.inner_resamples = 1000;
-    j.include = Include::default();
+    j.inner_resamples = bandsaw::engine::job::InnerResamples::new(1000).unwrap();
+    j.include = Vec::new();
     let started = Instant::now();
-    j.deadline = Some(started + Duration::from_millis(100));
-    assert!(matches!(run(&j), Err(bandsaw::engine::run::RunError::TimeLimit { .. })));
+    let within = |ms| Budget {
+        deadline: Some(Instant::now() + Duration::from_millis(ms)),
+        ..Budget::default()
+    };
+    assert!(matches!(try_run_within(&j, &within(100)), Err(RunError::TimeLimit { .. })));
     assert!(
         started.elapsed() < Duration::from_millis(1500),
         "a hang guard: {:?}",
@@ -411,12 +400,11 @@ fn a_deadline_is_noticed_inside_a_long_first_wave_and_inside_the_jackknife() {
     );
     // The generic jackknife of the MAD over 300 000 rows (500 groups × 300 000) stops too.
     let big: Vec<f64> = (0..300_000).map(|i| ((i * 7919) % 100_003) as f64).collect();
-    let mut j = job(Sample::Column(big), StatisticSpec::Mad { normal_scale: false }, 1000);
+    let mut j = job(column(big), spec(json!({"name": "mad", "normalized": false})), 1000);
     j.methods = vec![Method::Bca];
-    j.include = Include::default();
+    j.include = Vec::new();
     let started = Instant::now();
-    j.deadline = Some(started + Duration::from_millis(50));
-    assert!(matches!(run(&j), Err(bandsaw::engine::run::RunError::TimeLimit { .. })));
+    assert!(matches!(try_run_within(&j, &within(50)), Err(RunError::TimeLimit { .. })));
     assert!(
         started.elapsed() < Duration::from_millis(1500),
         "a hang guard: {:?}",
@@ -429,10 +417,10 @@ fn studentized_intervals_ignore_standard_errors_that_are_zero_up_to_rounding() {
     // A resample of three copies of 0.1 has a standard error of exactly 0 in exact arithmetic but
     // about 1e-17 in floating point; t* would be 1e15 if it were used.
     for x in [vec![0.1, 0.1, 0.7], vec![0.1, 0.2, 0.3, 0.7, 0.1, 0.2]] {
-        let o = run(&job(Sample::Column(x.clone()), StatisticSpec::Mean, 2000)).unwrap();
+        let o = run(&job(column(x.clone()), stat("mean"), 2000));
         let st = o.intervals.iter().find(|iv| iv.method == Method::Studentized).unwrap();
         assert!(st.endpoints.lower > -10.0 && st.endpoints.upper < 10.0, "{x:?}: {:?}", st.endpoints);
-        assert!(o.diagnostics.warnings.iter().any(|w| w.code == "studentized_degenerate"));
+        assert!(o.diagnostics.warnings.iter().any(|w| w.code.name() == "studentized_degenerate"));
     }
 }
 
@@ -440,21 +428,14 @@ fn studentized_intervals_ignore_standard_errors_that_are_zero_up_to_rounding() {
 fn correlation_of_huge_values_equals_that_of_the_same_values_scaled_down() {
     let x: Vec<f64> = (0..500).map(|i| (i as f64 * 0.37).sin() + i as f64 / 500.0).collect();
     let y: Vec<f64> = x.iter().enumerate().map(|(i, v)| v + ((i * 31) % 7) as f64 / 20.0).collect();
-    let stat = StatisticSpec::Correlation {
-        x: "x".into(),
-        y: "y".into(),
-        spearman: false,
-    };
-    let small = Sample::Columns {
-        names: vec!["x".into(), "y".into()],
-        columns: vec![x.clone(), y.clone()],
-    };
-    let huge = Sample::Columns {
-        names: vec!["x".into(), "y".into()],
-        columns: vec![x.iter().map(|v| v * 9e74).collect(), y.iter().map(|v| v * 9e74).collect()],
-    };
-    let a = run(&job(small, stat.clone(), 500)).unwrap();
-    let b = run(&job(huge, stat, 500)).unwrap();
+    let stat = spec(json!({"name": "correlation", "x": "x", "y": "y", "kind": "pearson"}));
+    let small = columns(vec!["x".into(), "y".into()], vec![x.clone(), y.clone()]);
+    let huge = columns(
+        vec!["x".into(), "y".into()],
+        vec![x.iter().map(|v| v * 4e74).collect(), y.iter().map(|v| v * 4e74).collect()],
+    );
+    let a = run(&job(small, stat.clone(), 500));
+    let b = run(&job(huge, stat, 500));
     assert!(
         (a.estimate - b.estimate).abs() < 1e-12 && a.estimate > 0.5,
         "{} vs {}",

@@ -2,15 +2,15 @@
 //! requests, pinned in `tests/golden/*.json`. Every statistic, every method, `auto`, `exact`,
 //! Bayesian, aggregated, columns, a grouped jackknife, a partial result and a batch. A change
 //! in the engine or the service that moves any bit of any of them fails here; an intended
-//! change rewrites the files with `BANDSAW_WRITE_GOLDEN=1 cargo test --release --test golden`
+//! change rewrites the files with
+//! `BANDSAW_WRITE_GOLDEN=1 cargo test --release --test service golden`
 //! and says why in its commit.
 //!
 //! Only `elapsed_ms` (a clock reading) and `token` (checked by replaying it instead) are left out.
 
-mod common;
-
-use common::TestApp;
 use serde_json::Value;
+
+use crate::common::TestApp;
 
 const DIR: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/golden");
 
@@ -25,6 +25,26 @@ fn strip(v: &mut Value) {
         }
         Value::Array(a) => a.iter_mut().for_each(strip),
         _ => {}
+    }
+}
+
+/// The first place where two JSON values differ: (pointer, one, the other).
+fn first_difference(a: &Value, b: &Value, at: String) -> Option<(String, Value, Value)> {
+    match (a, b) {
+        (Value::Object(x), Value::Object(y)) => {
+            let keys: Vec<&String> = x.keys().chain(y.keys().filter(|k| !x.contains_key(*k))).collect();
+            keys.into_iter().find_map(|k| {
+                let (p, q) = (x.get(k).unwrap_or(&Value::Null), y.get(k).unwrap_or(&Value::Null));
+                first_difference(p, q, format!("{at}/{k}"))
+            })
+        }
+        (Value::Array(x), Value::Array(y)) if x.len() == y.len() => x
+            .iter()
+            .zip(y)
+            .enumerate()
+            .find_map(|(i, (p, q))| first_difference(p, q, format!("{at}/{i}"))),
+        _ if a == b => None,
+        _ => Some((at, a.clone(), b.clone())),
     }
 }
 
@@ -68,12 +88,8 @@ async fn responses_match_the_golden_files_bit_for_bit() {
             std::fs::write(&file, serde_json::to_string_pretty(&golden).unwrap() + "\n").unwrap();
             continue;
         }
-        assert!(
-            golden["response"] == got,
-            "{}: the response moved.\nwant {}\ngot  {}",
-            file.display(),
-            golden["response"],
-            got
-        );
+        if let Some((at, want, have)) = first_difference(&golden["response"], &got, String::new()) {
+            panic!("{}: the response moved at {at}: want {want}, got {have}", file.display());
+        }
     }
 }

@@ -1,0 +1,71 @@
+//! The work a job costs, known before any work starts, in *row-draws*: units × resamples × the
+//! statistic's relative cost (× the nested bootstrap's size where studentized intervals need
+//! one), plus the jackknife of BCa. The limit on it keeps one request from holding the pool for
+//! long, and lets `"auto"` know how far it may grow.
+
+use crate::engine::interval::Method;
+use crate::engine::jackknife;
+use crate::engine::job::Job;
+use crate::engine::kernel::Target;
+use crate::engine::plan::{Resamples, AUTO_START};
+
+/// The estimated work of a job, and how many resamples it may draw within its limits.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Work {
+    /// Row-draws in all.
+    pub total: f64,
+    /// The most resamples (for `"auto"`, as many as the work limit affords).
+    pub max_resamples: u64,
+}
+
+/// The job needs more work than its limit.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OverLimit {
+    pub needed: f64,
+    pub limit: f64,
+}
+
+/// Row-draws of one replicate, over every sample.
+fn per_resample(job: &Job, target: &Target) -> f64 {
+    let nested = job.wants(Method::Studentized) && !job.statistic.has_analytic_se();
+    let factor = job.statistic.relative_cost() * if nested { 1.0 + job.inner_resamples.get() as f64 } else { 1.0 };
+    target.arms().iter().map(|a| a.estimator.units().base.len() as f64 * factor).sum()
+}
+
+/// Row-draws of BCa's jackknife, which runs once per job before the resamples.
+fn jackknife_work(job: &Job, target: &Target) -> f64 {
+    if !job.wants(Method::Bca) {
+        return 0.0;
+    }
+    let closed = job.statistic.has_closed_jackknife();
+    let per_arm = |u: crate::engine::statistic::Units| jackknife::cost_in_units(closed, u.base.len(), u.raw);
+    job.statistic.relative_cost() * target.arms().iter().map(|a| per_arm(a.estimator.units())).sum::<f64>()
+}
+
+/// The work of a job whose samples are laid out as `target`; `enumerated` is the number of
+/// distinct resamples of an exact job.
+pub fn estimate(job: &Job, target: &Target, enumerated: Option<u64>) -> Result<Work, OverLimit> {
+    let per = per_resample(job, target);
+    let limit = job.max_work;
+    let over = |needed: f64| if needed > limit { Err(OverLimit { needed, limit }) } else { Ok(()) };
+    let (resamples, max_resamples) = match job.resamples {
+        Resamples::Fixed(b) => (b, job.max_resamples),
+        Resamples::Exact => {
+            let count = enumerated.expect("an exact job enumerates");
+            (count, job.max_resamples)
+        }
+        Resamples::Auto { .. } => {
+            let affordable = (limit / per).floor() as u64;
+            if affordable < AUTO_START {
+                over(per * AUTO_START as f64)?;
+            }
+            let max = job.max_resamples.min(affordable);
+            (max, max)
+        }
+    };
+    let draws = per * resamples as f64;
+    over(draws)?;
+    let total = draws + jackknife_work(job, target);
+    over(total)?;
+    Ok(Work { total, max_resamples })
+}

@@ -1,0 +1,168 @@
+//! A job: a plain description of the work, built by the service or the command line, with every
+//! default written once here.
+
+use crate::engine::data::Sample;
+use crate::engine::interval::{Level, Method, DEFAULT_LEVEL, DEFAULT_METHODS};
+use crate::engine::plan::{Resamples, DEFAULT_RESAMPLES};
+use crate::engine::scheme::SchemeSpec;
+use crate::engine::statistic::StatisticSpec;
+
+/// Default inner resamples of the nested bootstrap for studentized intervals (Davison &
+/// Hinkley 1997 §5.2.1 suggest 25–50 are enough for a standard error; common practice).
+pub const DEFAULT_INNER_RESAMPLES: u64 = 50;
+
+crate::whole_number! {
+    /// The nested bootstrap size for studentized intervals of statistics without an analytic
+    /// standard error: 10 to 1000.
+    pub struct InnerResamples where 10 <= x <= 1000, "the nested bootstrap size, a whole number from 10 to 1000";
+}
+
+impl Default for InnerResamples {
+    fn default() -> Self {
+        InnerResamples::new(DEFAULT_INNER_RESAMPLES).expect("in range")
+    }
+}
+
+crate::wire_enum! {
+    /// What to do when the time limit is reached: `fail` (an error) or `partial` (the result
+    /// over the resamples finished, marked incomplete, with a warning).
+    pub enum OnTimeLimit {
+        /// Give up with a time-limit error.
+        Fail = "fail",
+        /// Answer with the resamples finished.
+        Partial = "partial",
+    }
+}
+
+crate::wire_enum! {
+    /// An optional part of the result.
+    pub enum Include {
+        /// Edges, counts and mass of the replicate distribution.
+        Histogram = "histogram",
+        /// A downsampled empirical distribution function of the replicates.
+        Cdf = "cdf",
+        /// Every replicate value, in stream order.
+        Replicates = "replicates",
+    }
+}
+
+crate::wire_enum! {
+    /// How a two-sample job compares its samples.
+    pub enum Contrast {
+        /// The candidate's statistic minus the baseline's.
+        Difference = "difference",
+        /// The candidate's statistic over the baseline's.
+        Ratio = "ratio",
+    }
+}
+
+impl Contrast {
+    /// The contrast of the candidate's value `c` with the baseline's `b`.
+    pub fn of(self, c: f64, b: f64) -> f64 {
+        match self {
+            Contrast::Difference => c - b,
+            Contrast::Ratio => c / b,
+        }
+    }
+}
+
+crate::wire_enum! {
+    /// How the intervals and verdicts of a family of comparisons hold together.
+    pub enum Multiplicity default None {
+        /// Each at its own level.
+        None = "none",
+        /// Each at level 1 − α/m for m comparisons (the Bonferroni bound).
+        Bonferroni = "bonferroni",
+        /// Holm's step-down procedure (Holm 1979), which rejects at least what Bonferroni does.
+        Holm = "holm",
+    }
+}
+
+crate::wire_enum! {
+    /// Why drawing stopped.
+    pub enum Stop {
+        /// Every resample asked for (or enumerated) was drawn.
+        Done = "done",
+        /// The time limit passed; the result covers the resamples done.
+        TimeLimit = "time_limit",
+        /// "auto" reached its Monte Carlo target.
+        AutoTarget = "auto_target",
+        /// "auto" reached the resample or work limit before its target.
+        AutoLimit = "auto_limit",
+        /// "auto" reached the time limit before its target.
+        AutoTime = "auto_time",
+    }
+}
+
+/// The samples of a job.
+#[derive(Debug, Clone)]
+pub enum Samples {
+    /// One sample and the statistic of it.
+    One(Sample),
+    /// Two samples, each resampled from its own streams, and a contrast of the statistic
+    /// between them.
+    Two {
+        baseline: Sample,
+        candidate: Sample,
+        contrast: Contrast,
+    },
+}
+
+/// One job.
+#[derive(Debug, Clone)]
+pub struct Job {
+    pub samples: Samples,
+    pub statistic: StatisticSpec,
+    /// The scheme, applied to each sample.
+    pub scheme: SchemeSpec,
+    pub resamples: Resamples,
+    pub seed: u64,
+    pub levels: Vec<Level>,
+    pub methods: Vec<Method>,
+    pub include: Vec<Include>,
+    pub inner_resamples: InnerResamples,
+    pub on_time_limit: OnTimeLimit,
+    /// The most resamples the job may draw (and enumerate).
+    pub max_resamples: u64,
+    /// The most work (row-draws, see [`crate::engine::cost`]) the job may take.
+    pub max_work: f64,
+    /// Set when replaying a token: the stop the original run reported, so that the replay
+    /// (which draws exactly the recorded number of resamples) reports the same.
+    pub recorded_stop: Option<Stop>,
+}
+
+/// The default most resamples of a job.
+pub const DEFAULT_MAX_RESAMPLES: u64 = 1_000_000;
+/// The default most work of a job, in row-draws.
+pub const DEFAULT_MAX_WORK: f64 = 2e10;
+
+impl Job {
+    /// A job with the defaults for everything but the samples, the statistic and the seed.
+    pub fn new(samples: Samples, statistic: StatisticSpec, seed: u64) -> Self {
+        Job {
+            samples,
+            statistic,
+            scheme: SchemeSpec::default(),
+            resamples: Resamples::Fixed(DEFAULT_RESAMPLES),
+            seed,
+            levels: vec![Level::new(DEFAULT_LEVEL).expect("in range")],
+            methods: DEFAULT_METHODS.to_vec(),
+            include: Vec::new(),
+            inner_resamples: InnerResamples::default(),
+            on_time_limit: OnTimeLimit::Fail,
+            max_resamples: DEFAULT_MAX_RESAMPLES,
+            max_work: DEFAULT_MAX_WORK,
+            recorded_stop: None,
+        }
+    }
+
+    /// True when the job asks for this method.
+    pub fn wants(&self, method: Method) -> bool {
+        self.methods.contains(&method)
+    }
+
+    /// True when the job asks for this part of the result.
+    pub fn includes(&self, part: Include) -> bool {
+        self.include.contains(&part)
+    }
+}

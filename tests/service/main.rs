@@ -1,0 +1,16 @@
+//! The HTTP service as a client sees it: the real application on a real port, spoken to over
+//! real HTTP, every response checked against the OpenAPI document; and the real binary as an
+//! operator runs it. The engine's own numbers are tested in `tests/statistics`.
+//!
+//! - [`contract`]: the OpenAPI document, the parser, the catalogue and `docs/api.md` agree.
+//! - [`interval`]: `POST /v1/interval`, validation, problems, tokens, limits.
+//! - [`service`]: catalogue, batch, shedding and the pool, keys, metrics, CORS, compression.
+//! - [`process`]: the binary: shutdown, logs, command-line help.
+//! - [`golden`]: full responses of varied requests, pinned bit for bit in `tests/golden/`.
+
+mod common;
+mod contract;
+mod golden;
+mod interval;
+mod process;
+mod service;
