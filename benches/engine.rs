@@ -28,7 +28,7 @@ use bandsaw::engine::data::Sample;
 use bandsaw::engine::driver;
 use bandsaw::engine::executor::Budget;
 use bandsaw::engine::interval::{Level, Method};
-use bandsaw::engine::job::{Job, Samples};
+use bandsaw::engine::job::{Job, Resampled, Samples};
 use bandsaw::engine::plan::Resamples;
 use bandsaw::engine::statistic::StatisticSpec;
 use rand::{Rng, SeedableRng};
@@ -95,7 +95,12 @@ fn main() {
     };
     let stats: Vec<(&str, StatisticSpec)> = names
         .into_iter()
-        .map(|name| (name, serde_json::from_value(serde_json::json!({ "name": name })).expect("a statistic")))
+        .map(|name| {
+            (
+                name,
+                serde_json::from_value(serde_json::json!({ "name": name })).expect("a statistic"),
+            )
+        })
         .collect();
 
     let x = standard_normal(n, DATA_SEED);
@@ -109,7 +114,7 @@ fn main() {
             // Build the job outside the timed region; preparing it lays the data out (that is
             // part of a request's work, as drawing the data is not part of numpy's).
             let sample = Sample::column(x.clone()).expect("finite data");
-            let mut job = Job::new(Samples::One(sample), spec.clone(), 1000 + r as u64);
+            let mut job = Job::new(Samples::One(Resampled::iid(sample)), spec.clone(), 1000 + r as u64);
             job.resamples = Resamples::Fixed(b);
             job.methods = vec![Method::Percentile];
             job.levels = vec![Level::new(0.95).expect("a level")];

@@ -25,7 +25,8 @@ pub struct Limits {
     /// Most resamples in one job (also the limit on distinct resamples for "exact").
     #[arg(long, env = "BANDSAW_MAX_RESAMPLES", default_value_t = DEFAULT_MAX_RESAMPLES)]
     pub max_resamples: u64,
-    /// Most row-draws (rows × resamples × the statistic's relative cost) in one job, or batch.
+    /// Most row-draws (rows × resamples × the statistic's relative cost) in one job (or, served,
+    /// in one batch).
     #[arg(long, env = "BANDSAW_WORK_LIMIT", default_value_t = DEFAULT_MAX_WORK)]
     pub work_limit: f64,
     /// Time limit of a request that sets none, in milliseconds.
@@ -34,9 +35,6 @@ pub struct Limits {
     /// Largest time limit a request may ask for, in milliseconds.
     #[arg(long, env = "BANDSAW_MAX_TIME_LIMIT_MS", default_value_t = DEFAULT_MAX_TIME_LIMIT_MS)]
     pub max_time_limit_ms: u64,
-    /// Most jobs in one batch request.
-    #[arg(long, env = "BANDSAW_MAX_BATCH_JOBS", default_value_t = DEFAULT_MAX_BATCH_JOBS)]
-    pub max_batch_jobs: usize,
 }
 
 impl Default for Limits {
@@ -47,7 +45,6 @@ impl Default for Limits {
             work_limit: DEFAULT_MAX_WORK,
             default_time_limit_ms: DEFAULT_TIME_LIMIT_MS,
             max_time_limit_ms: DEFAULT_MAX_TIME_LIMIT_MS,
-            max_batch_jobs: DEFAULT_MAX_BATCH_JOBS,
         }
     }
 }
@@ -80,6 +77,9 @@ pub struct Config {
     pub threads: Threads,
     #[command(flatten)]
     pub limits: Limits,
+    /// Most jobs in one batch request.
+    #[arg(long, env = "BANDSAW_MAX_BATCH_JOBS", default_value_t = DEFAULT_MAX_BATCH_JOBS)]
+    pub max_batch_jobs: usize,
     /// Largest request body in bytes.
     #[arg(long, env = "BANDSAW_MAX_BODY_BYTES", default_value_t = DEFAULT_MAX_BODY_BYTES)]
     pub max_body_bytes: usize,
@@ -114,6 +114,7 @@ impl Default for Config {
             listen: DEFAULT_LISTEN.into(),
             threads: Threads::default(),
             limits: Limits::default(),
+            max_batch_jobs: DEFAULT_MAX_BATCH_JOBS,
             max_body_bytes: DEFAULT_MAX_BODY_BYTES,
             queue: 0,
             api_keys: String::new(),

@@ -2,17 +2,23 @@
 //!
 //! # Layout
 //!
-//! - [`engine`]: pure computation. [`engine::rng`] gives every replicate its own ChaCha
-//!   stream; [`engine::data`] holds the validated sample forms; [`engine::statistic`] the
-//!   catalogue; [`engine::scheme`] how resamples are drawn; [`engine::interval`] the five
-//!   interval methods; [`engine::jackknife`] and [`engine::montecarlo`] the acceleration and
-//!   the Monte Carlo errors; [`engine::run`] the parallel, deadline-aware driver.
-//! - [`api`]: the HTTP layer (axum): request parsing that reports every invalid field at once
-//!   as RFC 9457 problems, and the JSON response.
-//! - [`token`]: the reproducibility token.
+//! - [`engine`]: pure computation, which knows nothing of HTTP or JSON. [`engine::wire`] lets
+//!   its vocabulary (statistics, methods, schemes, codes, bounded numbers) own its wire names,
+//!   ranges and docs; [`engine::data`] the checked samples and their layouts;
+//!   [`engine::statistic`] the catalogue, one registration per statistic; [`engine::scheme`] the
+//!   resamplers; [`engine::interval`] the five interval methods; [`engine::job`] a job and its
+//!   defaults; [`engine::driver`] prepares a job (every refusal) and runs it through
+//!   [`engine::plan`], [`engine::executor`] and [`engine::kernel`] to [`engine::summary`],
+//!   [`engine::diagnostics`] and [`engine::extras`]; [`engine::cost`] its work.
+//! - [`api`]: the HTTP layer (axum): request types that are both the parser and the OpenAPI
+//!   schema, every invalid field reported at once as an RFC 9457 problem, the responses, the
+//!   catalogue, the replay token and the bounded compute pool.
 //! - [`server`]: startup (`Application::build`, which reports the bound address) and graceful
 //!   shutdown; [`config`] the limits and flags; [`telemetry`] logs and Prometheus metrics.
 //! - [`cli`]: the command line.
+//!
+//! Dependencies point one way: `api` and `cli` use `engine` and `config`; `engine` uses nothing
+//! else of the crate.
 
 pub mod api;
 pub mod cli;

@@ -35,6 +35,7 @@ impl Application {
             limits: Arc::new(config.limits.clone()),
             metrics,
             max_body_bytes: config.max_body_bytes,
+            max_batch_jobs: config.max_batch_jobs,
             key_digests: Arc::new(keys.iter().map(|k| Sha256::digest(k.as_bytes()).into()).collect()),
             test_hooks: config.test_hooks,
         };

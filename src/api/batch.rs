@@ -130,11 +130,8 @@ pub struct BatchResponse {
     pub elapsed_ms: f64,
 }
 
-fn prefixed(mut p: Problem, i: usize) -> Problem {
-    for e in &mut p.errors {
-        e.pointer = format!("/jobs/{i}{}", e.pointer);
-    }
-    p
+fn prefixed(p: Problem, i: usize) -> Problem {
+    p.within(&format!("/jobs/{i}"))
 }
 
 /// Read and check one job.
@@ -160,16 +157,16 @@ fn prepare_job(i: usize, job: &Value, limits: &Limits, started: Instant, deadlin
 crate::decode_with_serde!(JobKind);
 
 /// Run a batch body.
-pub fn compute(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
+pub fn compute(body: &[u8], limits: &Limits, max_jobs: usize, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
     let json = interval::parse_json(body)?;
     let mut errs = Errors::default();
     let req = BatchRequest::decode(json.as_object().expect("an object"), "", &[], &mut errs);
     if let Some(r) = &req {
-        if r.jobs.0.len() > limits.max_batch_jobs {
+        if r.jobs.0.len() > max_jobs {
             errs.refuse(
                 "/jobs",
                 Rule::BatchLimit,
-                format!("must hold 1 to {} jobs; it holds {}", limits.max_batch_jobs, r.jobs.0.len()),
+                format!("must hold 1 to {max_jobs} jobs; it holds {}", r.jobs.0.len()),
             );
         }
     }

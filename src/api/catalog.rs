@@ -1,10 +1,11 @@
 //! `GET /v1/catalog`: every statistic, scheme and interval method with its parameters, the
 //! resample modes, the diagnostic codes, and this server's limits.
 //!
-//! Nothing here is written twice: statistics and schemes are read from the OpenAPI document's
-//! schemas (which their spec types generate), their facts from the engine's registry, and the
-//! lists from the engine's enums.
+//! Nothing here is written twice: statistics and schemes are read from the schemas their spec
+//! types generate (the same the OpenAPI document holds), their facts from the engine's registry,
+//! and the lists from the engine's enums.
 
+use std::collections::BTreeMap;
 use std::sync::OnceLock;
 
 use serde::Serialize;
@@ -12,10 +13,12 @@ use serde_json::Value;
 use utoipa::ToSchema;
 
 use super::fields::ResampleMode;
+use super::schema::{components, variants};
 use crate::engine::diagnostics::WarningCode;
 use crate::engine::interval::Method;
 use crate::engine::job::Include;
 use crate::engine::kernel::SeSource;
+use crate::engine::scheme::SchemeSpec;
 use crate::engine::statistic::{Shape, StatisticSpec};
 
 #[derive(Debug, Clone, Serialize, ToSchema)]
@@ -91,34 +94,21 @@ pub struct CatalogResponse {
     pub limits: LimitsEntry,
 }
 
-/// The variants of a tagged union of the document, as (tag value, variant object).
-fn variants<'a>(doc: &'a Value, schema: &str, tag: &str) -> Vec<(String, &'a Value)> {
-    doc["components"]["schemas"][schema]["oneOf"]
-        .as_array()
-        .unwrap_or_else(|| panic!("{schema} is a oneOf in the document"))
-        .iter()
-        .map(|v| {
-            (
-                v["properties"][tag]["enum"][0]
-                    .as_str()
-                    .unwrap_or_else(|| panic!("{schema} variants carry {tag}"))
-                    .to_string(),
-                v,
-            )
-        })
-        .collect()
-}
-
-/// Follow a local `$ref` of the document.
-fn resolve<'a>(doc: &'a Value, v: &'a Value) -> (&'a Value, Option<&'a str>) {
-    match v.get("$ref").and_then(Value::as_str) {
-        Some(r) => (doc.pointer(r.trim_start_matches('#')).unwrap_or(v), r.rsplit('/').next()),
-        None => (v, None),
+/// The schema a property stands for, through a `$ref` or a one-item `oneOf` (how a default is
+/// attached to a reference), with the name of the component it refers to.
+fn resolve<'a>(components: &'a BTreeMap<String, Value>, property: &'a Value) -> (&'a Value, Option<&'a str>) {
+    let inner = match property["oneOf"].as_array() {
+        Some(items) if items.len() == 1 => &items[0],
+        _ => property,
+    };
+    match inner.get("$ref").and_then(Value::as_str).and_then(|r| r.rsplit('/').next()) {
+        Some(name) => (components.get(name).unwrap_or(inner), Some(name)),
+        None => (inner, None),
     }
 }
 
-fn parameter(doc: &Value, name: &str, property: &Value, required: bool) -> Parameter {
-    let (schema, component) = resolve(doc, property);
+fn parameter(components: &BTreeMap<String, Value>, name: &str, property: &Value, required: bool) -> Parameter {
+    let (schema, component) = resolve(components, property);
     let values = schema["enum"]
         .as_array()
         .map(|e| e.iter().filter_map(|x| x.as_str().map(String::from)).collect());
@@ -127,7 +117,14 @@ fn parameter(doc: &Value, name: &str, property: &Value, required: bool) -> Param
         (_, Some(t)) => t,
         _ => "string",
     };
-    let description = property["description"].as_str().or(schema["description"].as_str()).unwrap_or("");
+    // The property's own description, else that of the one-item wrapper's reference, else the
+    // component's.
+    let wrapped = property["oneOf"].get(0).and_then(|i| i["description"].as_str());
+    let description = property["description"]
+        .as_str()
+        .or(wrapped)
+        .or(schema["description"].as_str())
+        .unwrap_or("");
     Parameter {
         name: name.to_string(),
         kind: kind.to_string(),
@@ -138,7 +135,8 @@ fn parameter(doc: &Value, name: &str, property: &Value, required: bool) -> Param
     }
 }
 
-fn statistic(doc: &Value, name: &str, variant: &Value) -> StatisticEntry {
+fn statistic(components: &BTreeMap<String, Value>, variant: &Value) -> StatisticEntry {
+    let name = variant["properties"]["name"]["enum"][0].as_str().expect("a statistic names itself");
     let (shape, analytic) = StatisticSpec::facts_of(name).expect("a registered statistic");
     let required: Vec<&str> = variant["required"]
         .as_array()
@@ -149,7 +147,7 @@ fn statistic(doc: &Value, name: &str, variant: &Value) -> StatisticEntry {
         .map(|p| {
             p.iter()
                 .filter(|(k, _)| *k != "name")
-                .map(|(k, v)| parameter(doc, k, v, required.contains(&k.as_str())))
+                .map(|(k, v)| parameter(components, k, v, required.contains(&k.as_str())))
                 .collect()
         })
         .unwrap_or_default();
@@ -166,19 +164,23 @@ fn statistic(doc: &Value, name: &str, variant: &Value) -> StatisticEntry {
     }
 }
 
-/// The parts of the catalogue that do not depend on the server's settings, read once.
+/// The parts of the catalogue that do not depend on the server's settings, read once from the
+/// schemas of the statistic and scheme types.
 fn fixed() -> &'static (Vec<StatisticEntry>, Vec<SchemeEntry>) {
     static FIXED: OnceLock<(Vec<StatisticEntry>, Vec<SchemeEntry>)> = OnceLock::new();
     FIXED.get_or_init(|| {
-        let doc: Value = serde_json::from_str(&super::openapi::document_json()).expect("the document is JSON");
-        let statistics = variants(&doc, "StatisticSpec", "name")
-            .into_iter()
-            .map(|(n, v)| statistic(&doc, &n, v))
+        let components = components::<StatisticSpec>();
+        let statistics = variants::<StatisticSpec>("name")
+            .iter()
+            .map(|v| statistic(&components, v))
             .collect();
-        let schemes = variants(&doc, "SchemeSpec", "kind")
-            .into_iter()
-            .map(|(kind, v)| SchemeEntry {
-                kind,
+        let schemes = variants::<SchemeSpec>("kind")
+            .iter()
+            .map(|v| SchemeEntry {
+                kind: v["properties"]["kind"]["enum"][0]
+                    .as_str()
+                    .expect("a scheme names itself")
+                    .to_string(),
                 description: v["description"].as_str().unwrap_or("").to_string(),
             })
             .collect();

@@ -12,6 +12,9 @@ use super::problem::escape_token;
 use super::rules::Rule;
 use crate::engine::data::{DataError, Form, Place, Sample, MAX_MAGNITUDE};
 
+/// The largest count: whole numbers up to 2^53 − 1 are exact in every JSON client.
+pub const MAX_COUNT: u64 = crate::engine::wire::MAX_EXACT_INTEGER;
+
 /// Every bad element of an array is named, up to this many; a count says how many more.
 const MAX_REPORTED: usize = 100;
 
@@ -251,8 +254,8 @@ fn aggregated_schema() -> ObjectBuilder {
         .property(
             "counts",
             ArrayBuilder::new()
-                .items(ObjectBuilder::new().schema_type(Type::Integer).minimum(Some(0)))
-                .description(Some("How often each value was observed: one whole number (0 or more) per value.")),
+                .items(ObjectBuilder::new().schema_type(Type::Integer).minimum(Some(0)).maximum(Some(MAX_COUNT)))
+                .description(Some("How often each value was observed: one whole number (0 to 2^53 − 1) per value.")),
         )
         .required("values")
         .required("counts")

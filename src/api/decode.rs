@@ -43,10 +43,18 @@ pub fn describe(v: &Value) -> String {
         Value::Null => "null".into(),
         Value::Bool(_) => "a boolean".into(),
         Value::Number(n) => format!("{n}"),
-        Value::String(s) if s.chars().count() <= 12 => format!("the string {s:?}"),
+        Value::String(s) if s.chars().count() <= 12 => format!("the string {}", Value::String(s.clone())),
         Value::String(_) => "a string".into(),
         Value::Array(_) => "an array".into(),
         Value::Object(_) => "an object".into(),
+    }
+}
+
+/// A value given where a name was expected: a short string quoted as JSON, else described.
+pub fn given(v: &Value) -> String {
+    match v {
+        Value::String(s) if s.chars().count() <= 24 => v.to_string(),
+        other => describe(other),
     }
 }
 
@@ -63,6 +71,54 @@ pub fn with_serde<T: DeserializeOwned>(v: &Value, at: &str, errs: &mut Errors) -
         Err(e) => {
             report(&e.inner().to_string(), e.path(), v, at, errs);
             None
+        }
+    }
+}
+
+/// Decode an object through `read` (a serde derive on a path-tracking deserializer), reporting
+/// the first error of every field, not only the first of all: after each error the field at
+/// fault is taken out and the object read again, until it reads, or fails on no field of its
+/// own (a missing field, or one already reported and taken out).
+pub fn every_field<T>(
+    obj: &Map<String, Value>,
+    at: &str,
+    errs: &mut Errors,
+    read: impl Fn(&Value, &mut serde_path_to_error::Track) -> Result<T, serde_json::Error>,
+) -> Option<T> {
+    let mut rest = obj.clone();
+    let mut reported: Vec<String> = Vec::new();
+    loop {
+        let value = Value::Object(rest.clone());
+        let mut track = serde_path_to_error::Track::new();
+        let e = match read(&value, &mut track) {
+            Ok(x) => return reported.is_empty().then_some(x),
+            Err(e) => e,
+        };
+        let before = errs.len();
+        report(&e.to_string(), &track.path(), &value, at, errs);
+        if errs.0[..before].iter().any(|x| x.pointer == errs.0[before].pointer) {
+            // Reported already (a required field found missing before reading).
+            errs.0.truncate(before);
+            return None;
+        }
+        let token = errs.0[before].pointer[at.len()..]
+            .trim_start_matches('/')
+            .split('/')
+            .next()
+            .unwrap_or("")
+            .to_string();
+        let key = rest.keys().find(|k| escape_token(k) == token).cloned();
+        match key {
+            Some(k) => {
+                rest.shift_remove(&k);
+                reported.push(k);
+            }
+            None => {
+                if reported.iter().any(|k| escape_token(k) == token) {
+                    errs.0.truncate(before);
+                }
+                return None;
+            }
         }
     }
 }
@@ -104,9 +160,10 @@ fn explain(message: &str, pointer: String, value: &Value) -> (String, String) {
     }
     if let Some(rest) = message.strip_prefix("unknown field ") {
         let name = escape_token(quoted_name(rest).unwrap_or(""));
-        let expected = rest
-            .split_once(", ")
-            .map_or("there are none".to_string(), |(_, e)| e.replace('`', "\""));
+        let expected = match rest.split_once(", ") {
+            Some((_, "there are no fields")) | None => "nothing else may be given here".to_string(),
+            Some((_, e)) => e.replace('`', "\""),
+        };
         // serde's path ends at the unknown key when it read the key itself, not otherwise.
         let at = if pointer.ends_with(&format!("/{name}")) {
             pointer
@@ -117,7 +174,7 @@ fn explain(message: &str, pointer: String, value: &Value) -> (String, String) {
     }
     if message.starts_with("unknown variant ") {
         let expected = message.split_once(", ").map_or(String::new(), |(_, e)| e.replace('`', "\""));
-        return (pointer, format!("unknown value {}: {expected}", describe(value)));
+        return (pointer, format!("unknown value {}; {expected}", given(value)));
     }
     if let Some(expected) = message
         .strip_prefix("invalid type: ")
@@ -268,16 +325,35 @@ mod tests {
     use crate::engine::interval::{Level, Method};
 
     #[test]
-    fn an_unknown_field_is_named_once_in_its_pointer() {
-        #[derive(Debug, serde::Deserialize)]
-        #[serde(deny_unknown_fields)]
-        #[allow(dead_code)]
-        struct Two {
-            a: f64,
-        }
+    fn every_field_of_an_object_reports_its_own_error() {
+        use crate::engine::statistic::association::CorrelationSpec;
+        let obj = serde_json::json!({"x": "", "y": 5, "kind": "q", "z": 1});
         let mut errs = Errors::default();
-        assert!(with_serde::<Two>(&serde_json::json!({"a": 1, "b": 2}), "/x", &mut errs).is_none());
-        assert_eq!(errs.0[0].pointer, "/x/b");
+        let read = |v: &Value, t: &mut serde_path_to_error::Track| {
+            <CorrelationSpec as serde::Deserialize>::deserialize(serde_path_to_error::Deserializer::new(v, t))
+        };
+        assert!(every_field(obj.as_object().unwrap(), "/statistic", &mut errs, read).is_none());
+        let pointers: Vec<&str> = errs.0.iter().map(|e| e.pointer.as_str()).collect();
+        assert_eq!(
+            pointers,
+            ["/statistic/x", "/statistic/y", "/statistic/kind", "/statistic/z"],
+            "{:?}",
+            errs.0
+        );
+        // A required field missing behind an invalid one shows once the invalid one is mended
+        // (the statistic's decoder checks required fields against its schema beforehand).
+        let mut errs = Errors::default();
+        assert!(every_field(serde_json::json!({"x": ""}).as_object().unwrap(), "/s", &mut errs, read).is_none());
+        let pointers: Vec<&str> = errs.0.iter().map(|e| e.pointer.as_str()).collect();
+        assert_eq!(pointers, ["/s/x"], "{:?}", errs.0);
+    }
+
+    #[test]
+    fn an_unknown_field_is_named_once_in_its_pointer() {
+        use crate::engine::statistic::quantile::QuantileSpec;
+        let mut errs = Errors::default();
+        assert!(with_serde::<QuantileSpec>(&serde_json::json!({"p": 0.5, "q": 1}), "/x", &mut errs).is_none());
+        assert_eq!(errs.0[0].pointer, "/x/q");
     }
 
     #[test]

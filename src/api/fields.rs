@@ -8,9 +8,10 @@ use utoipa::openapi::schema::{ArrayBuilder, ObjectBuilder, OneOfBuilder, Schema,
 use utoipa::openapi::{Ref, RefOr};
 use utoipa::{PartialSchema, ToSchema};
 
-use super::decode::{describe, report, with_serde, Decode, Errors};
+use super::decode::{describe, every_field, given, with_serde, Decode, Errors};
 use crate::engine::interval::{Level, Method, DEFAULT_LEVEL, DEFAULT_METHODS};
-use crate::engine::job::{Include, InnerResamples, OnTimeLimit};
+use crate::engine::job::{Include, InnerResamples};
+use crate::engine::plan::OnTimeLimit;
 use crate::engine::plan::{McTarget, ResampleCount};
 use crate::engine::rng::Seed;
 use crate::engine::scheme::SchemeSpec;
@@ -146,7 +147,7 @@ fn checked_tag<'v>(v: &'v Value, at: &str, tag: &str, names: &[String], errs: &m
         Some(other) => {
             errs.push(
                 format!("{at}/{tag}"),
-                format!("unknown value {}: one of {}", describe(other), one_of(names)),
+                format!("unknown value {}; expected one of {}", given(other), one_of(names)),
             );
             None
         }
@@ -159,8 +160,10 @@ fn checked_tag<'v>(v: &'v Value, at: &str, tag: &str, names: &[String], errs: &m
 
 impl Decode for SchemeSpec {
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
-        checked_tag(v, at, "kind", &tag_values::<SchemeSpec>("kind"), errs)?;
-        with_serde(v, at, errs)
+        let obj = checked_tag(v, at, "kind", &tag_values::<SchemeSpec>("kind"), errs)?;
+        every_field(obj, at, errs, |v, t| {
+            SchemeSpec::deserialize(serde_path_to_error::Deserializer::new(v, t))
+        })
     }
 }
 
@@ -191,36 +194,63 @@ impl Decode for Statistic {
             Value::String(name) if !names.contains(name) => {
                 errs.push(
                     at,
-                    format!(
-                        "unknown statistic {}; the catalogue has {} (GET /v1/catalog)",
-                        describe(v),
-                        one_of(&names)
-                    ),
+                    format!("unknown statistic {v}; the catalogue has {} (GET /v1/catalog)", one_of(&names)),
                 );
                 return None;
             }
             Value::String(name) => (name.clone(), Map::new()),
-            _ => {
+            Value::Object(_) => {
                 let mut obj = checked_tag(v, at, "name", &names, errs)?.clone();
-                let name = obj.remove("name").and_then(|n| n.as_str().map(String::from)).expect("checked");
+                let name = obj
+                    .shift_remove("name")
+                    .and_then(|n| n.as_str().map(String::from))
+                    .expect("checked");
+                for missing in required_parameters(&name).into_iter().filter(|p| !obj.contains_key(p)) {
+                    errs.push(format!("{at}/{missing}"), "is required");
+                }
                 (name, obj)
             }
+            other => {
+                errs.push(
+                    at,
+                    format!(
+                        "must be a statistic's name or an object with \"name\" and its parameters; got {}",
+                        describe(other)
+                    ),
+                );
+                return None;
+            }
         };
-        let params = Value::Object(params);
-        let mut track = serde_path_to_error::Track::new();
-        let result = StatisticSpec::deserialize_params(&name, serde_path_to_error::Deserializer::new(&params, &mut track));
-        match result.expect("a known name") {
-            Ok(spec) => Some(Statistic(spec)),
-            Err(_) if v.is_string() => {
-                errs.push(at, format!("the statistic \"{name}\" needs parameters: send an object such as {{\"name\": \"{name}\", ...}} (GET /v1/catalog lists them)"));
-                None
-            }
-            Err(e) => {
-                report(&e.to_string(), &track.path(), &params, at, errs);
-                None
-            }
+        let read = |p: &Value, t: &mut serde_path_to_error::Track| {
+            StatisticSpec::deserialize_params(&name, serde_path_to_error::Deserializer::new(p, t)).expect("a known name")
+        };
+        if v.is_string() {
+            return match read(&Value::Object(params), &mut serde_path_to_error::Track::new()) {
+                Ok(spec) => Some(Statistic(spec)),
+                Err(_) => {
+                    errs.push(at, format!("the statistic \"{name}\" needs parameters: send an object such as {{\"name\": \"{name}\", ...}} (GET /v1/catalog lists them)"));
+                    None
+                }
+            };
         }
+        every_field(&params, at, errs, read).map(Statistic)
     }
+}
+
+/// The parameters a statistic requires, from its schema.
+fn required_parameters(name: &str) -> Vec<String> {
+    static REQUIRED: std::sync::OnceLock<Vec<(String, Vec<String>)>> = std::sync::OnceLock::new();
+    let all = REQUIRED.get_or_init(|| {
+        crate::api::schema::variants::<StatisticSpec>("name")
+            .iter()
+            .map(|v| {
+                let required = v["required"].as_array().into_iter().flatten().filter_map(Value::as_str);
+                let name = v["properties"]["name"]["enum"][0].as_str().unwrap_or("").to_string();
+                (name, required.filter(|r| *r != "name").map(String::from).collect())
+            })
+            .collect()
+    });
+    all.iter().find(|(n, _)| n == name).map(|(_, r)| r.clone()).unwrap_or_default()
 }
 
 impl PartialSchema for Statistic {

@@ -19,7 +19,7 @@ use crate::config::Limits;
 use crate::engine::data::Sample;
 use crate::engine::driver::{self, Prepared, RunError, Which};
 use crate::engine::executor::Budget;
-use crate::engine::job::Samples;
+use crate::engine::job::{Resampled, Samples};
 use crate::engine::plan::ResampleCount;
 use crate::engine::rng::MAX_SEED;
 use crate::engine::scheme::SchemeError;
@@ -199,7 +199,11 @@ pub fn prepare(
     let own = started + Duration::from_millis(own_ms);
     let deadline = deadline_cap.map_or(own, |cap| cap.min(own));
     let digest = sample.digest();
-    let job = request::job(&params, Samples::One(sample), seed, req.on_time_limit, limits, replay);
+    let part = Resampled {
+        sample,
+        scheme: params.scheme,
+    };
+    let job = request::job(&params, Samples::One(part), seed, req.on_time_limit, limits, replay);
     let form = DataForm::of(&req.data.0);
     let prepared = driver::prepare(job).map_err(|e| refusal(e, own_ms, &|_| form))?;
     Ok(PreparedJob {
@@ -232,7 +236,7 @@ pub fn refusal(e: RunError, time_limit_ms: u64, form: &dyn Fn(Which) -> DataForm
         ),
         RunError::Scheme(e) => invalid("/resamples", Rule::ExactNeedsIid, format!("\"exact\": {e}; give a number of resamples")),
         RunError::WorkLimit { needed, limit } => Problem::work_limit(needed, limit),
-        RunError::TimeLimit { done, requested } => Problem::time_limit(done, requested, time_limit_ms),
+        RunError::TimeLimit { done, requested, partial } => Problem::time_limit(done, requested, time_limit_ms, partial),
         RunError::Cancelled => Problem::cancelled(),
         RunError::NoDefinedReplicates => invalid(
             "/statistic",

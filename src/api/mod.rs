@@ -17,6 +17,7 @@ pub mod problem;
 pub mod request;
 pub mod response;
 pub mod rules;
+pub mod schema;
 pub mod token;
 
 use std::sync::atomic::{AtomicBool, Ordering};
@@ -53,6 +54,7 @@ pub struct AppState {
     pub limits: Arc<Limits>,
     pub metrics: Arc<Metrics>,
     pub max_body_bytes: usize,
+    pub max_batch_jobs: usize,
     /// SHA-256 of every accepted API key; empty: no keys needed.
     pub key_digests: Arc<Vec<[u8; 32]>>,
     pub test_hooks: bool,
@@ -245,7 +247,7 @@ pub(crate) async fn catalog_route(State(app): State<AppState>) -> Json<catalog::
         work_limit: l.work_limit,
         default_time_limit_ms: l.default_time_limit_ms,
         max_time_limit_ms: l.max_time_limit_ms,
-        max_batch_jobs: l.max_batch_jobs,
+        max_batch_jobs: app.max_batch_jobs,
         threads: app.pool.threads(),
         queue: app.pool.queue_capacity(),
         max_seed: MAX_SEED,
@@ -541,8 +543,9 @@ pub(crate) async fn interval_route(State(app): State<AppState>, headers: HeaderM
     security(("bearer" = []), ()),
 )]
 pub(crate) async fn batch_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
+    let max_jobs = app.max_batch_jobs;
     compute_route(app, headers, body, move |bytes, limits, cancel, started| {
-        batch::compute(&bytes, &limits, cancel, started)
+        batch::compute(&bytes, &limits, max_jobs, cancel, started)
     })
     .await
 }

@@ -10,7 +10,7 @@
 
 use utoipa::openapi::example::ExampleBuilder;
 use utoipa::openapi::header::HeaderBuilder;
-use utoipa::openapi::schema::{AdditionalProperties, AllOfBuilder, Object, ObjectBuilder, Schema, SchemaType, Type};
+use utoipa::openapi::schema::{AllOfBuilder, ObjectBuilder, Schema, SchemaType, Type};
 use utoipa::openapi::security::{Http, HttpAuthScheme, SecurityScheme};
 use utoipa::openapi::{ContentBuilder, Ref, RefOr, ResponseBuilder};
 use utoipa::{Modify, OpenApi, ToResponse};
@@ -22,12 +22,14 @@ use super::problem::{FieldError, Problem};
 use super::request::IntervalRequest;
 use super::response::IntervalResponse;
 use super::rules::Rule;
+use super::schema::merged;
 use super::Health;
 use crate::engine::diagnostics::WarningCode;
 use crate::engine::interval::Method;
 use crate::engine::jackknife::JackknifeKind;
-use crate::engine::job::{Include, Multiplicity, OnTimeLimit, Stop};
+use crate::engine::job::{Include, Multiplicity};
 use crate::engine::kernel::SeSource;
+use crate::engine::plan::{OnTimeLimit, Stop};
 use crate::engine::statistic::association::CorrelationKind;
 use crate::engine::statistic::spread::Divisor;
 
@@ -125,35 +127,6 @@ impl Modify for Security {
 /// an `allOf` of its parameters and its tag, or as an object open to other fields; here each
 /// becomes one object, tag first, that refuses unknown fields as the parser does.
 struct TaggedUnions;
-
-fn merged(variant: &RefOr<Schema>, tag: &str) -> Object {
-    let parts: Vec<Object> = match variant {
-        RefOr::T(Schema::AllOf(all)) => all
-            .items
-            .iter()
-            .map(|p| match p {
-                RefOr::T(Schema::Object(o)) => o.clone(),
-                _ => panic!("the parts of a tagged variant are inline objects"),
-            })
-            .collect(),
-        RefOr::T(Schema::Object(o)) => vec![o.clone()],
-        _ => panic!("a tagged variant is an object"),
-    };
-    let mut out = ObjectBuilder::new().schema_type(Type::Object).build();
-    for p in &parts {
-        if let Some(t) = p.properties.get(tag) {
-            out.properties.insert(tag.to_string(), t.clone());
-        }
-    }
-    for p in parts {
-        out.properties.extend(p.properties.into_iter().filter(|(k, _)| k != tag));
-        out.required.extend(p.required.into_iter().filter(|r| r != tag));
-        out.description = out.description.or(p.description);
-    }
-    out.required.insert(0, tag.to_string());
-    out.additional_properties = Some(Box::new(AdditionalProperties::FreeForm(false)));
-    out
-}
 
 impl Modify for TaggedUnions {
     fn modify(&self, openapi: &mut utoipa::openapi::OpenApi) {
@@ -439,7 +412,7 @@ problem_responses! {
         [Problem::internal("the computation failed unexpectedly; the server is still serving. Please report the request's parameters (not its data) if this repeats")],
         retry_after = false, www_authenticate = false;
     Unavailable: 503, "`/problems/overloaded`: every compute thread is busy and the queue is full; `Retry-After` says when to retry. Or `/problems/time-limit`: the request ran past its time limit with `\"on_time_limit\": \"fail\"`.",
-        [Problem::overloaded(1), Problem::time_limit(412_000, 1_000_000, 2000)],
+        [Problem::overloaded(1), Problem::time_limit(412_000, 1_000_000, 2000, true)],
         retry_after = true, www_authenticate = false;
     Overloaded: 503, "`/problems/overloaded`: every compute thread is busy and the queue is full; `Retry-After` says when to retry. (A job of a batch that runs past the batch's time limit is answered in its `error`, not with a 503.)",
         [Problem::overloaded(1)],

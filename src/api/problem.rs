@@ -103,19 +103,32 @@ impl Problem {
 
     /// Every invalid field at once.
     pub fn invalid(errors: Vec<FieldError>) -> Self {
-        let n = errors.len();
-        let mut p = Problem::new(
-            StatusCode::UNPROCESSABLE_ENTITY,
-            "invalid-request",
-            "The request is invalid",
-            if n == 1 {
-                format!("{}: {}", errors[0].pointer_or_root(), errors[0].message)
-            } else {
-                format!("{n} fields are invalid; see errors for each, with a JSON Pointer into the request")
-            },
-        );
+        let mut p = Problem::new(StatusCode::UNPROCESSABLE_ENTITY, "invalid-request", "The request is invalid", "");
         p.errors = errors;
+        p.detail = p.invalid_detail();
         p
+    }
+
+    fn invalid_detail(&self) -> String {
+        match self.errors.as_slice() {
+            [one] => format!("{}: {}", one.pointer_or_root(), one.message),
+            many => format!(
+                "{} fields are invalid; see errors for each, with a JSON Pointer into the request",
+                many.len()
+            ),
+        }
+    }
+
+    /// The same problem about a part of a larger request: every pointer starts with `prefix`
+    /// (a batch's `/jobs/<i>`), the detail too.
+    pub fn within(mut self, prefix: &str) -> Self {
+        for e in &mut self.errors {
+            e.pointer = format!("{prefix}{}", e.pointer);
+        }
+        if !self.errors.is_empty() {
+            self.detail = self.invalid_detail();
+        }
+        self
     }
 
     pub fn work_limit(estimate: f64, limit: f64) -> Self {
@@ -138,14 +151,18 @@ impl Problem {
         )
     }
 
-    pub fn time_limit(done: u64, requested: u64, limit_ms: u64) -> Self {
+    /// `partial`: whether `"on_time_limit": "partial"` would have given a result.
+    pub fn time_limit(done: u64, requested: u64, limit_ms: u64, partial: bool) -> Self {
+        let way_out = if partial {
+            "raise time_limit_ms (up to the server's maximum), lower resamples, or set \"on_time_limit\": \"partial\" to get the result over the resamples done"
+        } else {
+            "raise time_limit_ms (up to the server's maximum) or give a number of resamples"
+        };
         Problem::new(
             StatusCode::SERVICE_UNAVAILABLE,
             "time-limit",
             "The request ran past its time limit",
-            format!(
-                "only {done} of {requested} resamples finished within {limit_ms} ms; raise time_limit_ms (up to the server's maximum), lower resamples, or set \"on_time_limit\": \"partial\" to get the result over the resamples done"
-            ),
+            format!("only {done} of {requested} resamples finished within {limit_ms} ms; {way_out}"),
         )
     }
 

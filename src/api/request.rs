@@ -14,8 +14,9 @@ use super::fields::{
 use super::rules::Rule;
 use crate::config::Limits;
 use crate::engine::data::Sample;
-use crate::engine::job::{InnerResamples, Job, OnTimeLimit, Samples, Stop};
+use crate::engine::job::{InnerResamples, Job, Samples};
 use crate::engine::plan::{self, McTarget};
+use crate::engine::plan::{OnTimeLimit, Stop};
 use crate::engine::rng::Seed;
 use crate::engine::scheme::SchemeSpec;
 use crate::engine::statistic::StatisticSpec;
@@ -23,7 +24,7 @@ use crate::engine::statistic::StatisticSpec;
 crate::whole_number! {
     /// Wall-clock budget in milliseconds, 1 or more, capped by the server's
     /// `limits.max_time_limit_ms`. Default `limits.default_time_limit_ms`.
-    pub struct TimeLimitMs where 1 <= x <= crate::engine::rng::MAX_SEED, "a time limit in milliseconds, a whole number 1 or more";
+    pub struct TimeLimitMs where 1 <= x <= crate::engine::wire::MAX_EXACT_INTEGER, "a time limit in milliseconds, a whole number from 1 to 2^53 − 1";
 }
 
 crate::decode_with_serde!(TimeLimitMs);
@@ -213,7 +214,6 @@ pub fn job(p: &Params, samples: Samples, seed: u64, on_time_limit: OnTimeLimit, 
     Job {
         samples,
         statistic: p.statistic.clone(),
-        scheme: p.scheme,
         resamples,
         seed,
         levels: p.levels.0.clone(),

@@ -10,8 +10,8 @@ use crate::engine::driver::Outcome;
 use crate::engine::extras::{Cdf, Histogram};
 use crate::engine::interval::Method;
 use crate::engine::jackknife::JackknifeKind;
-use crate::engine::job::Stop;
 use crate::engine::kernel::SeSource;
+use crate::engine::plan::Stop;
 use crate::engine::scheme::SchemeSpec;
 use crate::engine::statistic::StatisticSpec;
 

@@ -15,7 +15,7 @@ use base64::Engine as _;
 use serde::{Deserialize, Serialize};
 
 use super::request::Params;
-use crate::engine::job::Stop;
+use crate::engine::plan::Stop;
 use crate::engine::rng::GENERATOR;
 
 /// The prefix of every token: "rt" for replay token, then the format version.

@@ -12,8 +12,9 @@
 //! sent. Sorting once lets order statistics of any weighted resample be read in one pass, and
 //! working with weights resamples aggregated data in O(distinct values).
 //!
-//! Group labels (strata, clusters) are per-row data read by the scheme that uses them; they are
-//! interned once into [`Groups`].
+//! Group labels (strata, clusters) are per-row data of a sample read by the scheme that uses
+//! them, so they travel with the sample and its scheme
+//! ([`Resampled`](crate::engine::job::Resampled)).
 
 use sha2::{Digest, Sha256};
 
@@ -356,38 +357,6 @@ impl Layout {
     }
 }
 
-/// Group labels of the rows (strata or clusters), interned: `of_row[t]` is the group of row t,
-/// numbered 0.. in the order the groups first appear.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct Groups {
-    pub of_row: Vec<u32>,
-    pub count: usize,
-}
-
-impl Groups {
-    /// Intern labels of any comparable kind.
-    pub fn from_labels<L: Eq + std::hash::Hash>(labels: &[L]) -> Groups {
-        let mut seen = std::collections::HashMap::new();
-        let of_row = labels
-            .iter()
-            .map(|l| {
-                let next = seen.len() as u32;
-                *seen.entry(l).or_insert(next)
-            })
-            .collect();
-        Groups { of_row, count: seen.len() }
-    }
-
-    /// The rows of each group, in row order.
-    pub fn members(&self) -> Vec<Vec<u32>> {
-        let mut m = vec![Vec::new(); self.count];
-        for (row, g) in self.of_row.iter().enumerate() {
-            m[*g as usize].push(row as u32);
-        }
-        m
-    }
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -432,13 +401,5 @@ mod tests {
         let e = Sample::columns(vec!["x".into(), "y".into()], vec![vec![1.0, 2.0], vec![1.0]]).unwrap_err();
         assert_eq!(e[0].place(), Place::Column("y".into()));
         assert!(Sample::aggregated(vec![1.0, 2.0], vec![0, 1]).is_err(), "one observation in all");
-    }
-
-    #[test]
-    fn groups_are_numbered_in_order_of_first_appearance() {
-        let g = Groups::from_labels(&["b", "a", "b", "c", "a"]);
-        assert_eq!(g.of_row, vec![0, 1, 0, 2, 1]);
-        assert_eq!(g.count, 3);
-        assert_eq!(g.members(), vec![vec![0, 2], vec![1, 4], vec![3]]);
     }
 }

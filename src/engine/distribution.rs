@@ -213,6 +213,16 @@ pub mod normal_dist {
         std().inverse_cdf(p)
     }
 
+    /// The z with P(Z > z) = `tail`. For a tail so small that 1 − tail rounds to 1 (a level
+    /// within 1e-16 of 1), it is read from the lower tail by symmetry, so it stays finite.
+    pub fn upper_quantile(tail: f64) -> f64 {
+        if 1.0 - tail < 1.0 {
+            quantile(1.0 - tail)
+        } else {
+            -quantile(tail)
+        }
+    }
+
     pub fn cdf(z: f64) -> f64 {
         std().cdf(z)
     }

@@ -10,9 +10,9 @@ use crate::engine::executor::{self, Budget, Replicates};
 use crate::engine::extras::{self, Extras};
 use crate::engine::interval::{bca, Method};
 use crate::engine::jackknife::{self, JackknifeKind};
-use crate::engine::job::{Include, Job, Samples, Stop};
+use crate::engine::job::{Include, Job, Resampled, Samples};
 use crate::engine::kernel::{contrast_se, Arm, Kernel, SeSource, Target};
-use crate::engine::plan::{self, Resamples};
+use crate::engine::plan::{self, Ended, Plan, Resamples, Source, Stop};
 use crate::engine::scheme::SchemeError;
 use crate::engine::summary::{self, IntervalResult, Summary, SummaryInput};
 
@@ -34,8 +34,10 @@ pub enum RunError {
     Scheme(SchemeError),
     #[error("the estimated work is {needed:.3e} row-draws, above the limit of {limit:.3e}")]
     WorkLimit { needed: f64, limit: f64 },
+    /// `partial` tells whether a partial result could have been given instead (not for an
+    /// enumeration, whose part is no distribution).
     #[error("only {done} of {requested} resamples finished within the time limit")]
-    TimeLimit { done: u64, requested: u64 },
+    TimeLimit { done: u64, requested: u64, partial: bool },
     #[error("the caller went away")]
     Cancelled,
     #[error("the statistic is undefined on every resample")]
@@ -88,9 +90,9 @@ pub struct Prepared {
 }
 
 /// Bind the statistic to one sample and check that it is defined there.
-fn arm(job: &Job, sample: &Sample, which: Which, stream: u8) -> Result<(Arm, f64), RunError> {
+fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<(Arm, f64), RunError> {
     let data = |problems| RunError::Data { which, problems };
-    let estimator = job.statistic.build(sample).map_err(data)?;
+    let estimator = job.statistic.build(&part.sample).map_err(data)?;
     let estimate = estimator.estimate();
     if !estimate.is_finite() {
         return Err(data(vec![DataError::Undefined {
@@ -99,8 +101,8 @@ fn arm(job: &Job, sample: &Sample, which: Which, stream: u8) -> Result<(Arm, f64
     }
     let units = estimator.units();
     let resampler = match job.resamples {
-        Resamples::Exact => job.scheme.enumerator(units, job.max_resamples).map_err(RunError::Scheme)?,
-        _ => job.scheme.resampler(units),
+        Resamples::Exact => part.scheme.enumerator(units, job.max_resamples).map_err(RunError::Scheme)?,
+        _ => part.scheme.resampler(units),
     };
     Ok((
         Arm {
@@ -160,16 +162,17 @@ fn enumerated(target: &Target, limit: u64) -> Result<Option<u64>, RunError> {
 }
 
 /// A job being run: what the plan needs to draw and to judge the replicates.
-pub struct Run<'a> {
-    pub prepared: &'a Prepared,
-    pub budget: &'a Budget,
+struct Run<'a> {
+    prepared: &'a Prepared,
+    budget: &'a Budget,
     kernel: Kernel<'a>,
     acceleration: Option<f64>,
 }
 
-impl Run<'_> {
-    /// Extend `reps` up to `goal` replicates; false when the budget ran out first.
-    pub fn fill(&self, reps: &mut Replicates, goal: u64) -> Result<bool, RunError> {
+impl Source for Run<'_> {
+    type Error = RunError;
+
+    fn fill(&self, reps: &mut Replicates, goal: u64) -> Result<bool, RunError> {
         executor::fill(
             reps,
             goal,
@@ -180,8 +183,7 @@ impl Run<'_> {
         .map_err(|_| RunError::Cancelled)
     }
 
-    /// True when every endpoint's Monte Carlo error is at most `target` × the standard error.
-    pub fn meets_target(&self, reps: &Replicates, target: f64) -> bool {
+    fn meets_target(&self, reps: &Replicates, target: f64) -> bool {
         self.summarize(reps).is_ok_and(|s| {
             let worst = s
                 .intervals
@@ -191,7 +193,9 @@ impl Run<'_> {
             worst <= target * s.standard_error
         })
     }
+}
 
+impl Run<'_> {
     fn summarize(&self, reps: &Replicates) -> Result<Summary, RunError> {
         let p = self.prepared;
         let levels: Vec<f64> = p.job.levels.iter().map(|l| l.get()).collect();
@@ -258,7 +262,17 @@ impl Prepared {
             },
             acceleration: jack.as_ref().map(|j| j.acceleration),
         };
-        let (reps, stop) = plan::draw(&run)?;
+        let plan = Plan {
+            resamples: self.job.resamples,
+            on_time_limit: self.job.on_time_limit,
+            recorded_stop: self.job.recorded_stop,
+            max_resamples: self.max_resamples(),
+            enumerated: self.enumerated(),
+        };
+        let (reps, stop) = plan.draw(&run).map_err(|e| match e {
+            Ended::TimeLimit { done, requested, partial } => RunError::TimeLimit { done, requested, partial },
+            Ended::Source(e) => e,
+        })?;
         let summary = run.summarize(&reps)?;
         Ok(self.outcome(&reps, summary, stop, jack))
     }
@@ -273,6 +287,7 @@ impl Prepared {
                 RunError::TimeLimit {
                     done: 0,
                     requested: self.requested(),
+                    partial: false,
                 }
             }
         };
@@ -391,10 +406,7 @@ impl Prepared {
     }
 
     fn samples(&self) -> Vec<&Sample> {
-        match &self.job.samples {
-            Samples::One(s) => vec![s],
-            Samples::Two { baseline, candidate, .. } => vec![baseline, candidate],
-        }
+        self.job.samples.all().into_iter().map(|r| &r.sample).collect()
     }
 
     /// What the warnings are decided from.

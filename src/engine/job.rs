@@ -3,7 +3,7 @@
 
 use crate::engine::data::Sample;
 use crate::engine::interval::{Level, Method, DEFAULT_LEVEL, DEFAULT_METHODS};
-use crate::engine::plan::{Resamples, DEFAULT_RESAMPLES};
+use crate::engine::plan::{OnTimeLimit, Resamples, Stop, DEFAULT_RESAMPLES};
 use crate::engine::scheme::SchemeSpec;
 use crate::engine::statistic::StatisticSpec;
 
@@ -20,17 +20,6 @@ crate::whole_number! {
 impl Default for InnerResamples {
     fn default() -> Self {
         InnerResamples::new(DEFAULT_INNER_RESAMPLES).expect("in range")
-    }
-}
-
-crate::wire_enum! {
-    /// What to do when the time limit is reached: `fail` (an error) or `partial` (the result
-    /// over the resamples finished, marked incomplete, with a warning).
-    pub enum OnTimeLimit {
-        /// Give up with a time-limit error.
-        Fail = "fail",
-        /// Answer with the resamples finished.
-        Partial = "partial",
     }
 }
 
@@ -78,19 +67,21 @@ crate::wire_enum! {
     }
 }
 
-crate::wire_enum! {
-    /// Why drawing stopped.
-    pub enum Stop {
-        /// Every resample asked for (or enumerated) was drawn.
-        Done = "done",
-        /// The time limit passed; the result covers the resamples done.
-        TimeLimit = "time_limit",
-        /// "auto" reached its Monte Carlo target.
-        AutoTarget = "auto_target",
-        /// "auto" reached the resample or work limit before its target.
-        AutoLimit = "auto_limit",
-        /// "auto" reached the time limit before its target.
-        AutoTime = "auto_time",
+/// A sample with the scheme that resamples it. Whatever a scheme reads beside the values (the
+/// group labels of strata or clusters) is per-row data of this sample, so it travels here.
+#[derive(Debug, Clone)]
+pub struct Resampled {
+    pub sample: Sample,
+    pub scheme: SchemeSpec,
+}
+
+impl Resampled {
+    /// A sample resampled by the default scheme.
+    pub fn iid(sample: Sample) -> Self {
+        Resampled {
+            sample,
+            scheme: SchemeSpec::default(),
+        }
     }
 }
 
@@ -98,14 +89,24 @@ crate::wire_enum! {
 #[derive(Debug, Clone)]
 pub enum Samples {
     /// One sample and the statistic of it.
-    One(Sample),
-    /// Two samples, each resampled from its own streams, and a contrast of the statistic
-    /// between them.
+    One(Resampled),
+    /// Two samples, each resampled by its own scheme from its own streams, and a contrast of the
+    /// statistic between them.
     Two {
-        baseline: Sample,
-        candidate: Sample,
+        baseline: Resampled,
+        candidate: Resampled,
         contrast: Contrast,
     },
+}
+
+impl Samples {
+    /// The samples, baseline first.
+    pub fn all(&self) -> Vec<&Resampled> {
+        match self {
+            Samples::One(s) => vec![s],
+            Samples::Two { baseline, candidate, .. } => vec![baseline, candidate],
+        }
+    }
 }
 
 /// One job.
@@ -113,8 +114,6 @@ pub enum Samples {
 pub struct Job {
     pub samples: Samples,
     pub statistic: StatisticSpec,
-    /// The scheme, applied to each sample.
-    pub scheme: SchemeSpec,
     pub resamples: Resamples,
     pub seed: u64,
     pub levels: Vec<Level>,
@@ -142,7 +141,6 @@ impl Job {
         Job {
             samples,
             statistic,
-            scheme: SchemeSpec::default(),
             resamples: Resamples::Fixed(DEFAULT_RESAMPLES),
             seed,
             levels: vec![Level::new(DEFAULT_LEVEL).expect("in range")],

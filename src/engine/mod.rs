@@ -1,6 +1,8 @@
 //! The resampling engine: pure computation. It knows nothing of HTTP or JSON; its vocabulary
 //! (statistics, methods, schemes, codes, bounded numbers) describes itself through serde and
 //! utoipa derives ([`wire`]), from which the service derives its parser and its documents.
+//! Those derives are descriptions, not transport, so they are not put behind a cargo feature:
+//! a feature would double every attribute and still be always on.
 //!
 //! A job flows one way: a [`job::Job`] (plain, validated values) is checked and laid out by
 //! [`driver::prepare`] (statistic bound to its [`data::Layout`], a [`scheme::Resampler`] per

@@ -18,7 +18,7 @@ pub const GENERATOR: &str = "chacha8-stream-per-replicate-v1";
 
 /// The largest seed: 2^53 − 1, so that every JSON client (JavaScript's numbers included) carries
 /// it exactly.
-pub const MAX_SEED: u64 = (1 << 53) - 1;
+pub const MAX_SEED: u64 = crate::engine::wire::MAX_EXACT_INTEGER;
 
 crate::whole_number! {
     /// The seed of the random streams, from 0 to 2^53 − 1 (so that every JSON client carries it

@@ -83,6 +83,16 @@ pub struct OutOfRange {
     pub got: String,
 }
 
+/// A number as a person reads it in a message: plainly, or in scientific notation when it is
+/// very large or very small (a 301-digit number helps nobody).
+pub fn show(x: f64) -> String {
+    if x != 0.0 && !(1e-6..1e16).contains(&x.abs()) {
+        format!("{x:e}")
+    } else {
+        x.to_string()
+    }
+}
+
 /// Whether a bound of a range is part of it, for the OpenAPI schema of a bounded number.
 #[doc(hidden)]
 #[macro_export]
@@ -125,7 +135,7 @@ macro_rules! bounded_number {
                 if $lo $lop x && x $hop $hi {
                     Ok($name(x))
                 } else {
-                    Err($crate::engine::wire::OutOfRange { what: $what, got: x.to_string() })
+                    Err($crate::engine::wire::OutOfRange { what: $what, got: $crate::engine::wire::show(x) })
                 }
             }
 
@@ -228,8 +238,12 @@ pub struct WholeVisitor {
     pub what: &'static str,
 }
 
+/// The largest whole number that every JSON client carries exactly (JavaScript's numbers are
+/// doubles): 2^53 − 1. Seeds, counts and other whole numbers of the wire stay within it.
+pub const MAX_EXACT_INTEGER: u64 = (1 << 53) - 1;
+
 /// Below 2^53 every whole number is exact in a double.
-const EXACT_INTEGERS: f64 = 9_007_199_254_740_992.0;
+const EXACT_INTEGERS: f64 = (MAX_EXACT_INTEGER + 1) as f64;
 
 impl serde::de::Visitor<'_> for WholeVisitor {
     type Value = u64;
@@ -256,9 +270,9 @@ impl serde::de::Visitor<'_> for WholeVisitor {
             Ok(v as u64)
         } else {
             let got = if v.fract() != 0.0 {
-                format!("{v}, which is not whole")
+                format!("{}, which is not whole", show(v))
             } else {
-                v.to_string()
+                show(v)
             };
             Err(E::custom(OutOfRange { what: self.what, got }))
         }

@@ -540,7 +540,7 @@ async fn the_catalogue_the_document_and_the_parser_list_the_same_statistics() {
         .zip(catalog["statistics"].as_array().unwrap())
     {
         let stat = full_statistic(variant);
-        // The catalogue lists the document's parameters.
+        // The catalogue lists the document's parameters, with their types, values and docs.
         let params: BTreeSet<String> = entry["parameters"]
             .as_array()
             .unwrap()
@@ -550,6 +550,20 @@ async fn the_catalogue_the_document_and_the_parser_list_the_same_statistics() {
         let mut documented = properties(variant);
         documented.remove("name");
         assert_eq!(params, documented, "{stat}");
+        for p in entry["parameters"].as_array().unwrap() {
+            let property = &variant["properties"][p["name"].as_str().unwrap()];
+            let inner = property["oneOf"].get(0).unwrap_or(property);
+            let schema = deref(document(), inner);
+            let kind = if schema == schema_of("ColumnName") {
+                json!("column")
+            } else {
+                schema["type"].clone()
+            };
+            assert_eq!(p["type"], kind, "{stat}: {p}");
+            assert_eq!(p.get("values"), schema.get("enum"), "{stat}: {p}");
+            assert_eq!(p.get("default"), property.get("default"), "{stat}: {p}");
+            assert!(p["description"].as_str().is_some_and(|d| !d.is_empty()), "{stat}: {p}");
+        }
         // The parser takes every parameter the document lists.
         let data = if entry["data"] == "columns" { &data } else { &one };
         let (status, _, v) = app
@@ -691,4 +705,100 @@ fn the_engine_knows_nothing_of_http_json_or_the_service() {
     }
     let config = std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/src/config.rs")).unwrap();
     assert!(!config.contains("crate::api"), "config must not depend on the api");
+}
+
+/// The module of a source file: `src/api/catalog.rs` is `api::catalog`, a `mod.rs` its folder.
+fn module_of(path: &std::path::Path, src: &std::path::Path) -> String {
+    let rel = path.strip_prefix(src).unwrap().with_extension("");
+    let mut parts: Vec<String> = rel.iter().map(|p| p.to_string_lossy().into_owned()).collect();
+    if parts.last().is_some_and(|p| p == "mod" || p == "lib") {
+        parts.pop();
+    }
+    parts.join("::")
+}
+
+/// Every path a file's code names from the crate (`crate::…`, `super::…`, `self::…`), braces
+/// expanded one level, as absolute module paths.
+fn named_paths(module: &str, code: &str) -> Vec<String> {
+    let parent = module.rsplit_once("::").map_or("", |(p, _)| p);
+    let mut out = Vec::new();
+    let code: String = code
+        .lines()
+        .filter(|l| !l.trim_start().starts_with("//"))
+        .collect::<Vec<_>>()
+        .join("\n");
+    let mut rest = code.as_str();
+    while let Some(i) = rest.find(|c: char| c.is_ascii_alphabetic() || c == '$') {
+        rest = &rest[i..];
+        let end = rest
+            .find(|c: char| !(c.is_alphanumeric() || c == '_' || c == ':' || c == '$'))
+            .unwrap_or(rest.len());
+        let path = rest[..end].trim_start_matches('$').trim_end_matches(':');
+        let tail = &rest[end..];
+        let base = match path.split_once("::") {
+            Some(("crate", p)) => p.to_string(),
+            Some(("super", p)) => format!("{parent}::{p}"),
+            Some(("self", p)) => format!("{module}::{p}"),
+            _ => String::new(),
+        };
+        if !base.is_empty() {
+            if rest[..end].ends_with("::") && tail.starts_with('{') {
+                let items = &tail[1..tail.find('}').unwrap_or(1)];
+                out.extend(
+                    items
+                        .split(',')
+                        .map(|i| format!("{base}::{}", i.trim().split("::").next().unwrap_or(""))),
+                );
+            } else {
+                out.push(base);
+            }
+        }
+        rest = &rest[end.max(1)..];
+    }
+    out
+}
+
+#[test]
+fn no_module_imports_one_that_imports_it_back() {
+    let src = std::path::Path::new(concat!(env!("CARGO_MANIFEST_DIR"), "/src"));
+    let mut files = Vec::new();
+    sources(src, &mut files);
+    let modules: Vec<String> = files.iter().map(|(p, _)| module_of(std::path::Path::new(p), src)).collect();
+    // The longest module a path lies in; a module and its ancestors or descendants are one
+    // family (a parent declares what its children share), not an import between layers.
+    let within = |path: &str| {
+        modules
+            .iter()
+            .filter(|m| path == m.as_str() || path.starts_with(&format!("{m}::")))
+            .max_by_key(|m| m.len())
+            .cloned()
+    };
+    let family =
+        |a: &str, b: &str| a == b || a.starts_with(&format!("{b}::")) || b.starts_with(&format!("{a}::")) || a.is_empty() || b.is_empty();
+    let mut edges: BTreeSet<(String, String)> = BTreeSet::new();
+    for ((_, code), module) in files.iter().zip(&modules) {
+        for target in named_paths(module, code).iter().filter_map(|p| within(p)) {
+            if !family(module, &target) {
+                edges.insert((module.clone(), target));
+            }
+        }
+    }
+    assert!(
+        edges.contains(&("api::interval".to_string(), "engine::driver".to_string())),
+        "the scan sees imports: {edges:?}"
+    );
+    for (a, b) in &edges {
+        assert!(!edges.contains(&(b.clone(), a.clone())), "{a} and {b} import each other");
+    }
+    // Longer cycles: nothing reaches back to where it started.
+    for start in &modules {
+        let mut seen = BTreeSet::new();
+        let mut stack: Vec<&String> = edges.iter().filter(|(a, _)| a == start).map(|(_, b)| b).collect();
+        while let Some(m) = stack.pop() {
+            assert!(m != start, "{start} reaches itself through its imports");
+            if seen.insert(m.clone()) {
+                stack.extend(edges.iter().filter(|(a, _)| a == m).map(|(_, b)| b));
+            }
+        }
+    }
 }

@@ -935,3 +935,25 @@ async fn a_token_replays_whatever_the_order_of_the_columns() {
     assert_eq!(s, 200, "{again}");
     assert_eq!(without_timing(again), without_timing(first));
 }
+
+/// Numbers are read to the nearest double, as JSON Schema and every JSON writer mean them: the
+/// largest double below 1 (printed 0.9999999999999999) is a valid level, not 1 (found by
+/// schemathesis when the parser rounded it up).
+#[tokio::test]
+async fn numbers_are_read_to_the_nearest_double() {
+    let app = TestApp::spawn().await;
+    let below_one = 1.0 - f64::EPSILON / 2.0;
+    assert_eq!(format!("{below_one}"), "0.9999999999999999");
+    // Every method answers at such a level with finite endpoints (its normal quantile is read
+    // from the lower tail, where 1 − α/2 would round to 1).
+    let all = ["percentile", "basic", "normal", "bca", "studentized"];
+    let v = ok(post(
+        &app,
+        json!({"data": [1.5, 2.5, 4.0, 3.0, 7.5], "levels": [below_one], "methods": all, "resamples": 100, "seed": 1}),
+    )
+    .await);
+    assert_eq!(v["intervals"][0]["level"].as_f64(), Some(below_one));
+    for iv in v["intervals"].as_array().unwrap() {
+        assert!(iv["lower"].is_f64() && iv["upper"].is_f64(), "{iv}");
+    }
+}

@@ -54,7 +54,7 @@ async fn catalog_lists_the_catalogue_and_the_limits_in_force() {
         c.limits.work_limit = 3e9;
         c.limits.default_time_limit_ms = 4000;
         c.limits.max_time_limit_ms = 9000;
-        c.limits.max_batch_jobs = 17;
+        c.max_batch_jobs = 17;
         c.max_body_bytes = 123_456;
         c.queue = 3;
     })
@@ -138,7 +138,7 @@ async fn batch_answers_each_job_in_order_and_a_bad_job_does_not_sink_it() {
 async fn batch_refuses_bad_envelopes_and_too_much_work_before_starting() {
     let app = TestApp::spawn_with(|c| {
         c.limits.work_limit = 1e6;
-        c.limits.max_batch_jobs = 3;
+        c.max_batch_jobs = 3;
     })
     .await;
     invalid(

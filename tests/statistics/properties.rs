@@ -58,7 +58,7 @@ fn results_are_identical_on_one_and_two_threads() {
         ),
         {
             let mut j = job(column(BASKETS.to_vec()), spec(json!({"name": "trimmed_mean", "trim": 0.1})), 2000);
-            j.scheme = SchemeSpec::Bayesian {};
+            set_scheme(&mut j, SchemeSpec::Bayesian {});
             j
         },
     ];

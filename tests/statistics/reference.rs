@@ -102,7 +102,7 @@ fn bayesian_bootstrap_variance_of_the_mean_is_sigma_squared_over_n_plus_1() {
     // σ̂²/(n + 1) (plug-in σ̂²).
     let x = EXPORT_SECONDS.to_vec();
     let mut j = job(column(x.clone()), stat("mean"), 100_000, 9);
-    j.scheme = SchemeSpec::Bayesian {};
+    set_scheme(&mut j, SchemeSpec::Bayesian {});
     let o = run(&j);
     let want = (plugin_var(&x) / 21.0).sqrt();
     let tol = 4.0 * rel_se_of_se(&o, 4.0) * want; // as for iid: kurtosis below 4, 1.1 %
@@ -188,8 +188,8 @@ fn mouse_data_difference_of_means_has_the_exact_standard_error_26_908() {
     let want = (plugin_var(&MOUSE_TREATMENT) / 7.0 + plugin_var(&MOUSE_CONTROL) / 9.0).sqrt();
     assert!((want - 26.908).abs() < 5e-4, "{want}");
     let samples = Samples::Two {
-        baseline: Sample::column(MOUSE_CONTROL.to_vec()).unwrap(),
-        candidate: Sample::column(MOUSE_TREATMENT.to_vec()).unwrap(),
+        baseline: Resampled::iid(Sample::column(MOUSE_CONTROL.to_vec()).unwrap()),
+        candidate: Resampled::iid(Sample::column(MOUSE_TREATMENT.to_vec()).unwrap()),
         contrast: bandsaw::engine::job::Contrast::Difference,
     };
     let mut j = Job::new(samples, stat("mean"), 19);
@@ -218,8 +218,8 @@ fn two_samples_replay_bit_for_bit_and_each_sample_has_its_own_streams() {
     let two = |seed| {
         let mut j = Job::new(
             Samples::Two {
-                baseline: Sample::column(MOUSE_CONTROL.to_vec()).unwrap(),
-                candidate: Sample::column(MOUSE_TREATMENT.to_vec()).unwrap(),
+                baseline: Resampled::iid(Sample::column(MOUSE_CONTROL.to_vec()).unwrap()),
+                candidate: Resampled::iid(Sample::column(MOUSE_TREATMENT.to_vec()).unwrap()),
                 contrast: bandsaw::engine::job::Contrast::Ratio,
             },
             stat("median"),
@@ -234,8 +234,8 @@ fn two_samples_replay_bit_for_bit_and_each_sample_has_its_own_streams() {
     // streams, so the replicates are not all 1.
     let mut j = Job::new(
         Samples::Two {
-            baseline: Sample::column(MOUSE_CONTROL.to_vec()).unwrap(),
-            candidate: Sample::column(MOUSE_CONTROL.to_vec()).unwrap(),
+            baseline: Resampled::iid(Sample::column(MOUSE_CONTROL.to_vec()).unwrap()),
+            candidate: Resampled::iid(Sample::column(MOUSE_CONTROL.to_vec()).unwrap()),
             contrast: bandsaw::engine::job::Contrast::Ratio,
         },
         stat("mean"),

@@ -61,27 +61,29 @@ pub fn acceleration(values: &[f64], multiplicity: &[f64]) -> f64 {
 /// U_ki = (n_k − 1)(θ̄_k − θ_k(i)) estimates the empirical influence of observation i of
 /// sample k and n_k = Σ_i c_ki (Davison & Hinkley 1997, §3.2 and §5.3, the several-sample form
 /// of the acceleration; Efron & Tibshirani 1993, ch. 14; from memory). With one sample it is
-/// [`acceleration`]. Each sample's influences are scaled by their largest magnitude first, as
-/// there, and the scales restored in the sums, so no cube overflows.
+/// [`acceleration`]. The influences of all samples are divided by their largest magnitude
+/// first, as there (a does not change), so no cube overflows.
 pub fn acceleration_of_samples(samples: &[(&[f64], &[f64])]) -> f64 {
+    // U/n = (n − 1)/n · (θ̄ − θ₍ᵢ₎) for every observation of every sample.
+    let influence: Vec<(Vec<f64>, &[f64])> = samples
+        .iter()
+        .map(|(values, multiplicity)| {
+            let n: f64 = multiplicity.iter().sum();
+            let mean = values.iter().zip(*multiplicity).map(|(v, c)| v * c).sum::<f64>() / n;
+            (values.iter().map(|v| (mean - v) * (n - 1.0) / n).collect(), *multiplicity)
+        })
+        .collect();
+    let scale = influence.iter().flat_map(|(u, _)| u.iter()).fold(0.0_f64, |m, u| m.max(u.abs()));
+    if scale == 0.0 || !scale.is_finite() {
+        return 0.0;
+    }
     let (mut s2, mut s3) = (0.0, 0.0);
-    for (values, multiplicity) in samples {
-        let n: f64 = multiplicity.iter().sum();
-        let mean = values.iter().zip(*multiplicity).map(|(v, c)| v * c).sum::<f64>() / n;
-        let scale = values.iter().map(|v| (mean - v).abs()).fold(0.0, f64::max);
-        if scale == 0.0 || !scale.is_finite() {
-            continue;
+    for (u, multiplicity) in &influence {
+        for (ui, c) in u.iter().zip(*multiplicity) {
+            let d = ui / scale;
+            s2 += c * d * d;
+            s3 += c * d * d * d;
         }
-        // U/n = (n − 1)/n · d, written as a factor on the scaled d.
-        let f = scale * (n - 1.0) / n;
-        let (mut t2, mut t3) = (0.0, 0.0);
-        for (v, c) in values.iter().zip(*multiplicity) {
-            let d = (mean - v) / scale;
-            t2 += c * d * d;
-            t3 += c * d * d * d;
-        }
-        s2 += f * f * t2;
-        s3 += f * f * f * t3;
     }
     if s2 <= 0.0 {
         0.0
@@ -90,13 +92,13 @@ pub fn acceleration_of_samples(samples: &[(&[f64], &[f64])]) -> f64 {
     }
 }
 
-/// The adjusted quantile level for nominal tail probability `q`. When 1 − a(z₀ + z_q) ≤ 0 the
-/// formula breaks down; the level is then pushed to the end of the range on the side of q.
-pub fn adjusted_level(q: f64, c: &BcaConstants) -> f64 {
-    let zq = normal_dist::quantile(q);
+/// The adjusted quantile level for the nominal level whose normal quantile is `zq`. When
+/// 1 − a(z₀ + z_q) ≤ 0 the formula breaks down; the level is then pushed to the end of the
+/// range on the side of the nominal level.
+pub fn adjusted_level(zq: f64, c: &BcaConstants) -> f64 {
     let denom = 1.0 - c.acceleration * (c.z0 + zq);
     if denom <= 0.0 {
-        return if q < 0.5 { 0.0 } else { 1.0 };
+        return if zq < 0.0 { 0.0 } else { 1.0 };
     }
     normal_dist::cdf(c.z0 + (c.z0 + zq) / denom)
 }
@@ -105,7 +107,7 @@ pub fn adjusted_level(q: f64, c: &BcaConstants) -> f64 {
 /// at α_q plus, by the delta method, the error that the Monte Carlo error of z₀ carries into
 /// α_q (var z₀ ≈ P(1 − P)/(B φ(z₀)²), P the share below θ̂). The two are treated as
 /// uncorrelated.
-fn endpoint_mc_error(dist: &ReplicateDistribution, q: f64, level: f64, c: &BcaConstants) -> f64 {
+fn endpoint_mc_error(dist: &ReplicateDistribution, zq: f64, level: f64, c: &BcaConstants) -> f64 {
     if dist.is_exact() {
         return 0.0;
     }
@@ -119,7 +121,6 @@ fn endpoint_mc_error(dist: &ReplicateDistribution, q: f64, level: f64, c: &BcaCo
     } else {
         0.0
     };
-    let zq = normal_dist::quantile(q);
     let u = c.z0 + zq;
     let denom = 1.0 - c.acceleration * u;
     if denom <= 0.0 {
@@ -134,14 +135,14 @@ fn endpoint_mc_error(dist: &ReplicateDistribution, q: f64, level: f64, c: &BcaCo
 }
 
 pub fn interval(dist: &ReplicateDistribution, c: &BcaConstants, level: f64) -> Endpoints {
-    let alpha = 1.0 - level;
-    let (ql, qu) = (alpha / 2.0, 1.0 - alpha / 2.0);
-    let (al, au) = (adjusted_level(ql, c), adjusted_level(qu, c));
+    let tail = (1.0 - level) / 2.0;
+    let (zl, zu) = (normal_dist::quantile(tail), normal_dist::upper_quantile(tail));
+    let (al, au) = (adjusted_level(zl, c), adjusted_level(zu, c));
     Endpoints {
         lower: dist.quantile(al),
         upper: dist.quantile(au),
-        lower_mc_error: endpoint_mc_error(dist, ql, al, c),
-        upper_mc_error: endpoint_mc_error(dist, qu, au, c),
+        lower_mc_error: endpoint_mc_error(dist, zl, al, c),
+        upper_mc_error: endpoint_mc_error(dist, zu, au, c),
         quantile_levels: Some((al, au)),
     }
 }
@@ -158,9 +159,9 @@ mod tests {
             z0_clamped: false,
         };
         // Φ(Φ⁻¹(q)) round-trips in statrs 0.18 to about 2e-12.
-        let d = adjusted_level(0.05, &c) - 0.05;
+        let d = adjusted_level(normal_dist::quantile(0.05), &c) - 0.05;
         assert!(d.abs() < 1e-10, "{d}");
-        assert!((adjusted_level(0.975, &c) - 0.975).abs() < 1e-10);
+        assert!((adjusted_level(normal_dist::quantile(0.975), &c) - 0.975).abs() < 1e-10);
     }
 
     #[test]
@@ -190,5 +191,7 @@ mod tests {
         assert!(a != 0.0);
         let big: Vec<f64> = v.iter().map(|x| x * 1e140).collect();
         assert!((acceleration(&big, &c) - a).abs() < 1e-12 * a.abs());
+        let several = acceleration_of_samples(&[(&big, &c), (&big, &c)]);
+        assert!(several.is_finite() && several != 0.0, "{several}");
     }
 }

@@ -13,7 +13,7 @@ use crate::engine::distribution::{normal_dist, ReplicateDistribution};
 /// (delta method on cov(x̄, s²) = μ₃/B); so skewed replicates make one endpoint noisier than the
 /// other. Exact enumeration has no Monte Carlo error.
 pub fn interval(estimate: f64, bias: f64, se: f64, bias_mc: f64, se_mc: f64, dist: &ReplicateDistribution, level: f64) -> Endpoints {
-    let z = normal_dist::quantile(1.0 - (1.0 - level) / 2.0);
+    let z = normal_dist::upper_quantile((1.0 - level) / 2.0);
     let centre = estimate - bias;
     let (lower_mc_error, upper_mc_error) = if dist.is_exact() {
         (0.0, 0.0)

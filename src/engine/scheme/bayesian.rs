@@ -80,3 +80,40 @@ pub fn draw_counts(rng: &mut ChaCha8Rng, counts: &[f64], total: f64, w: &mut [f6
         *wi *= scale;
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::engine::rng::replicate_stream;
+
+    #[test]
+    fn a_nested_draw_keeps_the_size_and_the_empty_units_and_centres_on_the_resample() {
+        // Outer weights with an empty unit, as a resample can have.
+        let outer = [2.5, 0.0, 1.0, 4.5, 2.0];
+        let n: f64 = outer.iter().sum();
+        let b = Bayesian {
+            base: vec![1.0; 5],
+            total: n,
+            raw: true,
+        };
+        let mut within = Within::default();
+        b.prepare_within(&outer, &mut within);
+        let (draws, mut mean) = (20_000, [0.0; 5]);
+        let mut rng = replicate_stream(3, 0);
+        let mut w = [0.0; 5];
+        for _ in 0..draws {
+            b.draw_within(&outer, &within, &mut rng, &mut w);
+            assert!((w.iter().sum::<f64>() - n).abs() < 1e-9, "the weights add up to n");
+            assert_eq!(w[1], 0.0, "a unit the resample left out stays out");
+            for (m, x) in mean.iter_mut().zip(&w) {
+                *m += x / draws as f64;
+            }
+        }
+        // Dirichlet(α) has mean α/Σα, so the weights average to the outer ones. Their sd is
+        // n·√(p(1 − p)/(Σα + 1)) ≤ 10·√(0.25/11) = 1.51 each, so the mean of 20 000 draws is
+        // within 4 × 1.51/√20 000 = 0.043 of its expectation.
+        for (m, o) in mean.iter().zip(&outer) {
+            assert!((m - o).abs() < 0.043, "{m} vs {o}");
+        }
+    }
+}

@@ -36,8 +36,6 @@ pub fn count(size: u64, units: usize) -> Option<u64> {
 /// computed in any order and in parallel like sampled ones.
 pub struct Exact {
     size: u64,
-    /// `table[u][s]`: compositions of s draws over u units, for unranking.
-    table: Vec<Vec<u64>>,
     ln_p: Vec<f64>,
     ln_size_factorial: f64,
     count: u64,
@@ -53,9 +51,6 @@ impl Exact {
         match whole {
             Some(c) if c <= limit => Ok(Exact {
                 size,
-                table: (0..m)
-                    .map(|u| (0..=size).map(|s| count(s, u).unwrap_or(u64::MAX)).collect())
-                    .collect(),
                 ln_p: units.base.iter().map(|c| (c / units.total).ln()).collect(),
                 ln_size_factorial: ln_factorial(size),
                 count: c,
@@ -65,24 +60,35 @@ impl Exact {
         }
     }
 
-    /// Write composition `index` into `w`.
+    /// Write composition `index` into `w`, in O(units² · log size).
     fn unrank(&self, mut index: u64, w: &mut [f64]) {
         let m = w.len();
         let mut left = self.size;
         for (j, wj) in w.iter_mut().enumerate().take(m - 1) {
-            // Compositions of the remaining `left` draws over units j.. whose first part is k:
-            // those of left − k over the m − j − 1 units after it. Larger k come first.
-            let mut k = left;
-            loop {
-                let c = self.table[m - j - 1][(left - k) as usize];
-                if index < c {
-                    break;
+            // With `left` draws over this unit and the u = m − j − 1 after it, the compositions
+            // whose part here exceeds k number Σ_{v>k} C(left − v + u − 1, u − 1), which is
+            // C(left − k − 1 + u, u) by the hockey-stick identity: compositions of left − k − 1
+            // over u + 1 units. Larger parts come first, so the part of composition `index` is
+            // the smallest k with no more than `index` compositions above it.
+            let above = |k: u64| {
+                if k >= left {
+                    0
+                } else {
+                    count(left - k - 1, m - j).unwrap_or(u64::MAX)
                 }
-                index -= c;
-                k -= 1;
+            };
+            let (mut lo, mut hi) = (0, left);
+            while lo < hi {
+                let mid = lo + (hi - lo) / 2;
+                if above(mid) <= index {
+                    hi = mid;
+                } else {
+                    lo = mid + 1;
+                }
             }
-            *wj = k as f64;
-            left -= k;
+            index -= above(lo);
+            *wj = lo as f64;
+            left -= lo;
         }
         w[m - 1] = left as f64;
     }
@@ -163,6 +169,21 @@ mod tests {
         assert_eq!(previous.unwrap(), [0.0, 0.0, 0.0, 7.0], "the last composition");
         // The multinomial probabilities add up to one (rounding of about 1e-15 per term).
         assert!((total_p - 1.0).abs() < 1e-12, "{total_p}");
+    }
+
+    #[test]
+    fn unranking_a_large_sample_over_few_units_is_quick_and_exact() {
+        // Two units with half a million observations each: a million and one compositions, the
+        // last of which puts every draw on the second unit.
+        let base = [500_000.0, 500_000.0];
+        let e = Exact::new(units(&base), 2_000_000).unwrap();
+        assert_eq!(e.enumerated(), Some(1_000_001));
+        let mut rng = crate::engine::rng::replicate_stream(0, 0);
+        let mut w = [0.0; 2];
+        for (i, first) in [(0, 1_000_000.0), (1, 999_999.0), (500_000, 500_000.0), (1_000_000, 0.0)] {
+            e.draw(i, &mut rng, &mut w);
+            assert_eq!(w, [first, 1_000_000.0 - first], "composition {i}");
+        }
     }
 
     #[test]

@@ -1,0 +1,63 @@
+//! Reading the schemas utoipa derives: the variants of a tagged union as single objects, and
+//! the components a schema refers to. The OpenAPI document and the catalogue both read them
+//! here.
+
+use std::collections::BTreeMap;
+
+use serde_json::Value;
+use utoipa::openapi::schema::{AdditionalProperties, Object, ObjectBuilder, Schema, Type};
+use utoipa::openapi::RefOr;
+use utoipa::ToSchema;
+
+/// A variant of a tagged union as one object: its tag property first, then its parameters,
+/// refusing unknown fields as the parser does.
+pub fn merged(variant: &RefOr<Schema>, tag: &str) -> Object {
+    let parts: Vec<Object> = match variant {
+        RefOr::T(Schema::AllOf(all)) => all
+            .items
+            .iter()
+            .map(|p| match p {
+                RefOr::T(Schema::Object(o)) => o.clone(),
+                _ => panic!("the parts of a tagged variant are inline objects"),
+            })
+            .collect(),
+        RefOr::T(Schema::Object(o)) => vec![o.clone()],
+        _ => panic!("a tagged variant is an object"),
+    };
+    let mut out = ObjectBuilder::new().schema_type(Type::Object).build();
+    for p in &parts {
+        if let Some(t) = p.properties.get(tag) {
+            out.properties.insert(tag.to_string(), t.clone());
+        }
+    }
+    for p in parts {
+        out.properties.extend(p.properties.into_iter().filter(|(k, _)| k != tag));
+        out.required.extend(p.required.into_iter().filter(|r| r != tag));
+        out.description = out.description.or(p.description);
+    }
+    out.required.insert(0, tag.to_string());
+    out.additional_properties = Some(Box::new(AdditionalProperties::FreeForm(false)));
+    out
+}
+
+/// The variants of a tagged union `T`, each as one object (as JSON).
+pub fn variants<T: ToSchema>(tag: &str) -> Vec<Value> {
+    let RefOr::T(Schema::OneOf(one_of)) = T::schema() else {
+        panic!("{} is a oneOf", T::name());
+    };
+    one_of
+        .items
+        .iter()
+        .map(|v| serde_json::to_value(merged(v, tag)).expect("a schema serialises"))
+        .collect()
+}
+
+/// The component schemas `T`'s schema refers to, by name (as JSON).
+pub fn components<T: ToSchema>() -> BTreeMap<String, Value> {
+    let mut found = Vec::new();
+    T::schemas(&mut found);
+    found
+        .into_iter()
+        .map(|(name, s)| (name, serde_json::to_value(s).expect("a schema serialises")))
+        .collect()
+}
