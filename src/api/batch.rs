@@ -12,15 +12,18 @@ use utoipa::openapi::schema::{OneOfBuilder, Schema};
 use utoipa::openapi::RefOr;
 use utoipa::{PartialSchema, ToSchema};
 
+use super::compare::{self, CompareResponse};
 use super::decode::{describe, Decode, Errors};
-use super::interval::{self, PreparedJob};
+use super::interval;
+use super::job::{self, PreparedJob, Ran};
 use super::problem::{FieldError, Problem};
 use super::request::{IntervalRequest, TimeLimitMs};
 use super::response::IntervalResponse;
 use super::rules::Rule;
 use crate::config::Limits;
+use crate::engine::family::{self, Multiplicity};
 use crate::engine::interval::{Level, DEFAULT_LEVEL};
-use crate::engine::job::Multiplicity;
+use crate::engine::verdict::Reading;
 
 crate::decode_with_serde!(Multiplicity);
 
@@ -29,6 +32,8 @@ crate::wire_enum! {
     pub enum JobKind {
         /// One sample, one statistic: the fields of `POST /v1/interval`.
         Interval = "interval",
+        /// Two samples compared, with a verdict: the fields of `POST /v1/compare`.
+        Compare = "compare",
     }
 }
 
@@ -49,27 +54,30 @@ impl Decode for Jobs {
     }
 }
 
-/// An interval job of a batch: the fields of an interval request with `"kind": "interval"`.
-pub struct IntervalJob;
-
-impl PartialSchema for IntervalJob {
-    fn schema() -> RefOr<Schema> {
-        let mut schema = IntervalRequest::schema();
-        if let RefOr::T(Schema::Object(o)) = &mut schema {
-            o.properties.insert("kind".into(), RefOr::T(JobKind::schema().into()));
-            o.required.insert(0, "kind".into());
-            o.description = Some("An interval job of a batch: the fields of an interval request with `\"kind\": \"interval\"`.".into());
-        }
-        schema
+/// A job of a batch: the fields of a request of its route with `kind` first.
+fn job_schema(request: RefOr<Schema>, kind: JobKind) -> RefOr<Schema> {
+    let mut schema = request;
+    if let RefOr::T(Schema::Object(o)) = &mut schema {
+        let mut tag = utoipa::openapi::schema::ObjectBuilder::new()
+            .schema_type(utoipa::openapi::schema::Type::String)
+            .enum_values(Some([kind.name()]))
+            .build();
+        tag.description = Some(format!("\"{kind}\": {}", kind.doc()));
+        o.properties.shift_insert(0, "kind".into(), RefOr::T(Schema::Object(tag)));
+        o.required.insert(0, "kind".into());
+        o.description = Some(format!("A `{kind}` job of a batch: the fields of `POST /v1/{kind}` with `\"kind\": \"{kind}\"`."));
     }
+    schema
 }
-
-impl ToSchema for IntervalJob {}
 
 impl PartialSchema for Jobs {
     fn schema() -> RefOr<Schema> {
         utoipa::openapi::schema::ArrayBuilder::new()
-            .items(OneOfBuilder::new().item(utoipa::openapi::Ref::from_schema_name("IntervalJob")))
+            .items(
+                OneOfBuilder::new()
+                    .item(utoipa::openapi::Ref::from_schema_name("IntervalJob"))
+                    .item(utoipa::openapi::Ref::from_schema_name("CompareJob")),
+            )
             .min_items(Some(1))
             .description(Some("1 to the server's `limits.max_batch_jobs` jobs, each told apart by `kind`."))
             .into()
@@ -78,7 +86,8 @@ impl PartialSchema for Jobs {
 
 impl ToSchema for Jobs {
     fn schemas(schemas: &mut Vec<(String, RefOr<Schema>)>) {
-        schemas.push(("IntervalJob".into(), IntervalJob::schema()));
+        schemas.push(("IntervalJob".into(), job_schema(super::schema::flattened::<IntervalRequest>(), JobKind::Interval)));
+        schemas.push(("CompareJob".into(), job_schema(compare::request_schema(), JobKind::Compare)));
     }
 }
 
@@ -108,13 +117,22 @@ crate::wire_object! {
 #[serde(untagged)]
 pub enum BatchResult {
     Ok {
-        #[schema(value_type = IntervalResponse)]
+        #[schema(schema_with = ok_schema)]
         ok: Value,
     },
     Error {
         /// The job's problem; its pointers start with `/jobs/<index>`.
         error: Problem,
     },
+}
+
+/// The `ok` of a job: the response of its route.
+fn ok_schema() -> RefOr<Schema> {
+    OneOfBuilder::new()
+        .item(utoipa::openapi::Ref::from_schema_name(IntervalResponse::name()))
+        .item(utoipa::openapi::Ref::from_schema_name(CompareResponse::name()))
+        .description(Some("The job's result: an `IntervalResponse` for an `interval` job, a `CompareResponse` (which has `verdict`) for a `compare` job."))
+        .into()
 }
 
 /// The response of `POST /v1/batch`.
@@ -134,6 +152,8 @@ fn prefixed(p: Problem, i: usize) -> Problem {
     p.within(&format!("/jobs/{i}"))
 }
 
+crate::decode_with_serde!(JobKind);
+
 /// Read and check one job.
 fn prepare_job(i: usize, job: &Value, limits: &Limits, started: Instant, deadline: Instant) -> Result<PreparedJob, Problem> {
     let invalid = |pointer: &str, message: String| prefixed(Problem::invalid(vec![FieldError::new(pointer, message)]), i);
@@ -144,20 +164,20 @@ fn prepare_job(i: usize, job: &Value, limits: &Limits, started: Instant, deadlin
     let kind: Option<JobKind> = match o.get("kind") {
         Some(k) => Decode::decode(k, "/kind", &mut errs),
         None => {
-            errs.push("/kind", "is required: \"interval\"");
+            errs.push("/kind", format!("is required: one of {}", JobKind::quoted()));
             None
         }
     };
-    match kind {
-        Some(JobKind::Interval) => interval::prepare(job, &["kind"], limits, started, Some(deadline)).map_err(|p| prefixed(p, i)),
-        None => Err(prefixed(Problem::invalid(errs.0), i)),
-    }
+    let prepared = match kind {
+        Some(JobKind::Interval) => interval::prepare(job, &["kind"], limits, started, Some(deadline)),
+        Some(JobKind::Compare) => compare::prepare(job, &["kind"], limits, started, Some(deadline)),
+        None => Err(Problem::invalid(errs.0)),
+    };
+    prepared.map_err(|p| prefixed(p, i))
 }
 
-crate::decode_with_serde!(JobKind);
-
-/// Run a batch body.
-pub fn compute(body: &[u8], limits: &Limits, max_jobs: usize, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
+/// Decode a batch and check it against the server's limits.
+fn decode(body: &[u8], max_jobs: usize) -> Result<BatchRequest, Problem> {
     let json = interval::parse_json(body)?;
     let mut errs = Errors::default();
     let req = BatchRequest::decode(json.as_object().expect("an object"), "", &[], &mut errs);
@@ -170,10 +190,15 @@ pub fn compute(body: &[u8], limits: &Limits, max_jobs: usize, cancel: Arc<Atomic
             );
         }
     }
-    let req = match req {
-        Some(r) if errs.is_empty() => r,
-        _ => return Err(Problem::invalid(errs.0)),
-    };
+    match req {
+        Some(r) if errs.is_empty() => Ok(r),
+        _ => Err(Problem::invalid(errs.0)),
+    }
+}
+
+/// Run a batch body.
+pub fn compute(body: &[u8], limits: &Limits, max_jobs: usize, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
+    let req = decode(body, max_jobs)?;
     let time_limit_ms = req
         .time_limit_ms
         .map_or(limits.default_time_limit_ms, |t| t.get())
@@ -191,21 +216,52 @@ pub fn compute(body: &[u8], limits: &Limits, max_jobs: usize, cancel: Arc<Atomic
     if total_work > limits.work_limit {
         return Err(Problem::work_limit(total_work, limits.work_limit));
     }
-    let results: Vec<BatchResult> = prepared
+    let ran: Vec<Result<Ran, Problem>> = prepared
         .into_iter()
         .enumerate()
-        .map(
-            |(i, p)| match p.and_then(|job| interval::execute(job, cancel.clone(), None, started).map_err(|e| prefixed(e, i))) {
-                Ok(ok) => BatchResult::Ok { ok },
-                Err(error) => BatchResult::Error { error },
-            },
-        )
+        .map(|(i, p)| p.and_then(|job| job::run(job, cancel.clone(), None).map_err(|e| prefixed(e, i))))
         .collect();
-    let resp = BatchResponse {
+    let readings = family_readings(&ran, req.multiplicity, req.family_level.get());
+    let results: Vec<BatchResult> = ran
+        .into_iter()
+        .zip(readings)
+        .enumerate()
+        .map(|(i, (r, reading))| match r.and_then(|ran| respond(ran, reading, started).map_err(|e| prefixed(e, i))) {
+            Ok(ok) => BatchResult::Ok { ok },
+            Err(error) => BatchResult::Error { error },
+        })
+        .collect();
+    job::to_json(&BatchResponse {
         results,
         multiplicity: req.multiplicity,
         family_level: req.family_level,
-        elapsed_ms: (started.elapsed().as_secs_f64() * 1e6).round() / 1e3,
-    };
-    serde_json::to_value(&resp).map_err(|e| Problem::internal(format!("could not encode the result: {e}")))
+        elapsed_ms: job::elapsed_ms(started),
+    })
+}
+
+/// What each job's verdict is read at: the comparisons that ran form the family (interval jobs
+/// and failed jobs decide nothing, so they are not in it); `None` for the others.
+fn family_readings(ran: &[Result<Ran, Problem>], multiplicity: Multiplicity, family_level: f64) -> Vec<Option<Reading>> {
+    let members: Vec<(usize, &Ran)> = ran
+        .iter()
+        .enumerate()
+        .filter_map(|(i, r)| r.as_ref().ok().filter(|r| r.comparing.is_some()).map(|r| (i, r)))
+        .collect();
+    let own: Vec<f64> = members.iter().map(|(_, r)| r.params.levels.0[0].get()).collect();
+    let p: Vec<f64> = members.iter().map(|(_, r)| compare::p_value(r)).collect();
+    let mut out = vec![None; ran.len()];
+    for ((i, _), reading) in members.iter().zip(family::readings(multiplicity, family_level, &own, &p)) {
+        out[*i] = Some(reading);
+    }
+    out
+}
+
+/// One job's `ok`: an interval, or a comparison read at its reading in the family.
+fn respond(ran: Ran, reading: Option<Reading>, started: Instant) -> Result<Value, Problem> {
+    match reading {
+        None => interval::respond(ran, started),
+        Some(reading) => {
+            job::to_json(&compare::response(ran, reading, started))
+        }
+    }
 }

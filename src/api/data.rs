@@ -201,6 +201,7 @@ pub fn data_error(form: DataForm, e: DataError, data_at: &str, statistic_at: &st
         DataError::CountsOverflow => Some(Rule::RowLimit),
         DataError::NeedsColumns { .. } | DataError::NeedsOneColumn { .. } => Some(Rule::StatisticShape),
         DataError::MissingColumn { .. } => Some(Rule::ColumnNames),
+        DataError::NotPaired { .. } => Some(Rule::PairedRows),
         _ => Some(Rule::StatisticDomain),
     };
     let way_out = match &e {

@@ -242,8 +242,9 @@ pub fn unknown_fields(obj: &Map<String, Value>, fields: &[&str], at: &str, errs:
 
 /// A request object type: the struct whose OpenAPI schema utoipa derives, with every field
 /// decoded on its own. Each field is `required`, `default` (absent means what the named function
-/// returns, which the OpenAPI document shows as the default) or `optional` (absent means
-/// `None`); its doc comment documents it in the OpenAPI document.
+/// returns, which the OpenAPI document shows as the default), `optional` (absent means `None`),
+/// or `flatten` (another such type whose fields sit in the same object); its doc comment
+/// documents it in the OpenAPI document.
 #[macro_export]
 macro_rules! wire_object {
     ($(#[$meta:meta])* pub struct $name:ident { $($body:tt)* }) => {
@@ -267,6 +268,12 @@ macro_rules! wire_object {
             [$($fields)* $(#[$fm])* #[serde(default)] #[schema(nullable = false)] pub $field: Option<$ty>,]
             [$($decodes)* ($field, $ty, optional)] $($rest)*);
     };
+    (@munch $metas:tt $name:ident [$($fields:tt)*] [$($decodes:tt)*]
+        flatten $(#[$fm:meta])* $field:ident : $ty:ty, $($rest:tt)*) => {
+        $crate::wire_object!(@munch $metas $name
+            [$($fields)* $(#[$fm])* #[serde(flatten)] pub $field: $ty,]
+            [$($decodes)* ($field, $ty, flatten)] $($rest)*);
+    };
     (@munch [$(#[$meta:meta])*] $name:ident [$($fields:tt)*] [$( ($field:ident, $ty:ty, $($mode:tt)*) )*]) => {
         $(#[$meta])*
         #[derive(Debug, Clone, utoipa::ToSchema)]
@@ -274,8 +281,12 @@ macro_rules! wire_object {
         pub struct $name { $($fields)* }
 
         impl $name {
-            /// The names of the fields.
-            pub const FIELDS: &'static [&'static str] = &[$(stringify!($field)),*];
+            /// The names of the fields, those of flattened parts included.
+            pub fn fields() -> Vec<&'static str> {
+                let mut out = Vec::new();
+                $( out.extend($crate::wire_object!(@names $field, $ty, $($mode)*)); )*
+                out
+            }
 
             /// Decode every field of `obj` (every error at once, under `at`), refusing fields
             /// that are neither this type's nor in `also`.
@@ -285,8 +296,17 @@ macro_rules! wire_object {
                 also: &[&str],
                 errs: &mut $crate::api::decode::Errors,
             ) -> Option<Self> {
-                let known: Vec<&str> = Self::FIELDS.iter().chain(also).copied().collect();
+                let known: Vec<&str> = Self::fields().into_iter().chain(also.iter().copied()).collect();
                 $crate::api::decode::unknown_fields(obj, &known, at, errs);
+                Self::decode_fields(obj, at, errs)
+            }
+
+            /// Decode this type's fields of `obj`, leaving other fields to the caller.
+            pub fn decode_fields(
+                obj: &serde_json::Map<String, serde_json::Value>,
+                at: &str,
+                errs: &mut $crate::api::decode::Errors,
+            ) -> Option<Self> {
                 let before = errs.len();
                 $( let $field = $crate::wire_object!(@decode obj, at, errs, $field, $ty, $($mode)*); )*
                 if errs.len() != before {
@@ -295,6 +315,11 @@ macro_rules! wire_object {
                 Some($name { $( $field: $field.expect("decoded without errors"), )* })
             }
         }
+    };
+    (@names $field:ident, $ty:ty, flatten) => { <$ty>::fields() };
+    (@names $field:ident, $ty:ty, $($mode:tt)*) => { [stringify!($field)] };
+    (@decode $obj:ident, $at:ident, $errs:ident, $field:ident, $ty:ty, flatten) => {
+        <$ty>::decode_fields($obj, $at, $errs)
     };
     (@decode $obj:ident, $at:ident, $errs:ident, $field:ident, $ty:ty, required) => {
         match $obj.get(stringify!($field)) {

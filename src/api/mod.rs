@@ -7,10 +7,12 @@
 
 pub mod batch;
 pub mod catalog;
+pub mod compare;
 pub mod data;
 pub mod decode;
 pub mod fields;
 pub mod interval;
+pub mod job;
 pub mod openapi;
 pub mod pool;
 pub mod problem;
@@ -94,6 +96,7 @@ pub const TEST_STOP_AFTER_HEADER: &str = "x-bandsaw-test-stop-after";
 pub fn router(state: AppState, cors_origins: &[String]) -> Router {
     let v1 = Router::new()
         .route("/v1/interval", post(interval_route))
+        .route("/v1/compare", post(compare_route))
         .route("/v1/batch", post(batch_route))
         .route("/v1/catalog", get(catalog_route))
         .route_layer(middleware::from_fn_with_state(state.clone(), require_key));
@@ -508,6 +511,44 @@ pub(crate) async fn interval_route(State(app): State<AppState>, headers: HeaderM
         .and_then(|v| v.to_str().ok()?.parse().ok());
     compute_route(app, headers, body, move |bytes, limits, cancel, started| {
         interval::compute(&bytes, &limits, cancel, started, cap)
+    })
+    .await
+}
+
+/// Two samples compared, with a verdict
+///
+/// A baseline and a candidate (the runs of a benchmark before and after a change, a metric in
+/// two periods): the contrast of one statistic between them (a ratio or a difference) with every
+/// part of an interval response, and a verdict read from the first method at the first level
+/// against the tolerance band: `regression`, `improvement`, `equivalent` or `inconclusive`.
+/// Without `resamples`, a comparison of few runs is enumerated exactly.
+#[utoipa::path(
+    post,
+    path = "/v1/compare",
+    operation_id = "compare",
+    tag = "intervals",
+    request_body(
+        content = compare::CompareRequest,
+        content_type = "application/json",
+        description = "The two samples, the statistic, the contrast and what counts as no change; only `baseline` and `candidate` are required.",
+        example = json!(openapi::compare_request_example()),
+    ),
+    responses(
+        (status = 200, description = "The comparison and its verdict.", body = compare::CompareResponse, content_type = "application/json", example = json!(openapi::compare_response_example())),
+        (status = 400, response = openapi::MalformedJson),
+        (status = 401, response = openapi::Unauthorized),
+        (status = 409, response = openapi::DataMismatch),
+        (status = 413, response = openapi::BodyTooLarge),
+        (status = 415, response = openapi::UnsupportedMediaType),
+        (status = 422, response = openapi::Unprocessable),
+        (status = 500, response = openapi::Internal),
+        (status = 503, response = openapi::Unavailable),
+    ),
+    security(("bearer" = []), ()),
+)]
+pub(crate) async fn compare_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
+    compute_route(app, headers, body, move |bytes, limits, cancel, started| {
+        compare::compute(&bytes, &limits, cancel, started)
     })
     .await
 }

@@ -13,21 +13,24 @@ use utoipa::openapi::header::HeaderBuilder;
 use utoipa::openapi::schema::{AllOfBuilder, ObjectBuilder, Schema, SchemaType, Type};
 use utoipa::openapi::security::{Http, HttpAuthScheme, SecurityScheme};
 use utoipa::openapi::{ContentBuilder, Ref, RefOr, ResponseBuilder};
-use utoipa::{Modify, OpenApi, ToResponse};
+use utoipa::{Modify, OpenApi, ToResponse, ToSchema};
 
 use super::batch::{BatchRequest, BatchResponse, JobKind};
 use super::catalog::CatalogResponse;
+use super::compare::{CompareRequest, CompareResponse};
 use super::fields::{ResampleMode, Statistic};
 use super::problem::{FieldError, Problem};
 use super::request::IntervalRequest;
 use super::response::IntervalResponse;
 use super::rules::Rule;
-use super::schema::merged;
+use super::schema::{flattened, merged};
 use super::Health;
 use crate::engine::diagnostics::WarningCode;
 use crate::engine::interval::Method;
 use crate::engine::jackknife::JackknifeKind;
-use crate::engine::job::{Include, Multiplicity};
+use crate::engine::family::Multiplicity;
+use crate::engine::job::{Contrast, Include};
+use crate::engine::verdict::{Better, Verdict};
 use crate::engine::kernel::SeSource;
 use crate::engine::plan::{OnTimeLimit, Stop};
 use crate::engine::statistic::association::CorrelationKind;
@@ -78,9 +81,9 @@ routes never need a key.";
         description = DESCRIPTION,
         license(name = "MIT OR Apache-2.0", identifier = "MIT OR Apache-2.0"),
     ),
-    paths(super::interval_route, super::batch_route, super::catalog_route, super::healthz, super::readyz, super::metrics_route, super::openapi_route),
+    paths(super::interval_route, super::compare_route, super::batch_route, super::catalog_route, super::healthz, super::readyz, super::metrics_route, super::openapi_route),
     components(
-        schemas(IntervalRequest, Statistic, BatchRequest, IntervalResponse, BatchResponse, CatalogResponse, Problem, FieldError, Rule, Health, WarningCode),
+        schemas(IntervalRequest, CompareRequest, Statistic, BatchRequest, IntervalResponse, CompareResponse, BatchResponse, CatalogResponse, Problem, FieldError, Rule, Health, WarningCode),
         responses(
             MalformedJson,
             Unauthorized,
@@ -96,7 +99,7 @@ routes never need a key.";
             NotReady,
         ),
     ),
-    modifiers(&Security, &TaggedUnions, &EnumMeanings),
+    modifiers(&Security, &TaggedUnions, &Flattened, &EnumMeanings),
     tags(
         (name = "intervals", description = "Bootstrap computations"),
         (name = "discovery", description = "What this server offers: the catalogue and this document"),
@@ -152,13 +155,26 @@ impl Modify for TaggedUnions {
     }
 }
 
+/// The request types with flattened parts, each as one object (a client sees one flat list of
+/// fields); the shared part itself is then no component of its own.
+struct Flattened;
+
+impl Modify for Flattened {
+    fn modify(&self, openapi: &mut utoipa::openapi::OpenApi) {
+        let schemas = &mut openapi.components.get_or_insert_with(Default::default).schemas;
+        schemas.insert(<IntervalRequest as ToSchema>::name().into(), flattened::<IntervalRequest>());
+        schemas.insert(<CompareRequest as ToSchema>::name().into(), super::compare::request_schema());
+        schemas.remove(<super::request::Resampling as ToSchema>::name().as_ref());
+    }
+}
+
 /// Every enum's values with their meanings, in its description.
 struct EnumMeanings;
 
 impl Modify for EnumMeanings {
     fn modify(&self, openapi: &mut utoipa::openapi::OpenApi) {
         let schemas = &mut openapi.components.get_or_insert_with(Default::default).schemas;
-        let meanings: [(&str, String); 13] = [
+        let meanings: [(&str, String); 16] = [
             ("Method", Method::described()),
             ("WarningCode", WarningCode::described()),
             ("Rule", Rule::described()),
@@ -170,6 +186,9 @@ impl Modify for EnumMeanings {
             ("Multiplicity", Multiplicity::described()),
             ("ResampleMode", ResampleMode::described()),
             ("JobKind", JobKind::described()),
+            ("Verdict", Verdict::described()),
+            ("Better", Better::described()),
+            ("Contrast", Contrast::described()),
             ("Divisor", Divisor::described()),
             ("CorrelationKind", CorrelationKind::described()),
         ];
@@ -206,11 +225,38 @@ pub fn batch_request_example() -> serde_json::Value {
     serde_json::json!({
         "jobs": [
             {"kind": "interval", "data": [12.1, 9.8, 15.3, 11.0, 13.4], "seed": 1},
-            {"kind": "interval", "data": [0.8, 1.1, 0.9, 1.4, 1.0, 1.2], "statistic": {"name": "quantile", "p": 0.9}, "seed": 2}
+            {"kind": "interval", "data": [0.8, 1.1, 0.9, 1.4, 1.0, 1.2], "statistic": {"name": "quantile", "p": 0.9}, "seed": 2},
+            {"kind": "compare", "baseline": [41.8, 42.3, 41.5, 43.0, 42.1, 41.9], "candidate": [45.1, 44.7, 45.9, 44.9, 45.4, 46.0], "tolerance": 0.02}
         ],
         "multiplicity": "none"
     })
 }
+
+/// The example request of `POST /v1/compare`: a parser benchmark, eight runs before and after a
+/// change.
+pub fn compare_request_example() -> serde_json::Value {
+    serde_json::json!({
+        "baseline": [41.8, 42.3, 41.5, 43.0, 42.1, 41.9, 42.6, 42.2],
+        "candidate": [45.1, 44.7, 45.9, 44.9, 45.4, 46.0, 45.2, 44.8],
+        "statistic": "median",
+        "contrast": "ratio",
+        "better": "lower",
+        "tolerance": 0.02,
+        "resamples": 4000,
+        "seed": 11,
+        "levels": [0.95],
+        "methods": ["percentile"]
+    })
+}
+
+/// The example response of `POST /v1/compare`: what the server answers to
+/// [`compare_request_example`] (a test keeps them equal).
+pub fn compare_response_example() -> serde_json::Value {
+    serde_json::from_str(COMPARE_RESPONSE_EXAMPLE).expect("the example is JSON")
+}
+
+/// Written by the contract test with `BANDSAW_WRITE_EXAMPLES=1`.
+const COMPARE_RESPONSE_EXAMPLE: &str = include_str!("../../openapi/compare_response_example.json");
 
 /// The example response of `POST /v1/interval`.
 pub fn interval_response_example() -> serde_json::Value {

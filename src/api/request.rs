@@ -14,7 +14,8 @@ use super::fields::{
 use super::rules::Rule;
 use crate::config::Limits;
 use crate::engine::data::Sample;
-use crate::engine::job::{InnerResamples, Job, Samples};
+use crate::engine::job::{Contrast, InnerResamples, Job, Samples};
+use crate::engine::verdict::{Better, Comparison, Tolerance};
 use crate::engine::plan::{self, McTarget};
 use crate::engine::plan::{OnTimeLimit, Stop};
 use crate::engine::rng::Seed;
@@ -34,11 +35,9 @@ fn fail() -> OnTimeLimit {
 }
 
 crate::wire_object! {
-    /// The body of `POST /v1/interval`. Only `data` is required. Unknown fields are refused
-    /// (422), so that a typo (`level` for `levels`) never silently changes a result.
-    pub struct IntervalRequest {
-        required
-        data: Data,
+    /// How to resample and what to report: the fields that an interval request and a comparison
+    /// share.
+    pub struct Resampling {
         default
         statistic: Statistic = default_statistic,
         default
@@ -75,18 +74,33 @@ crate::wire_object! {
     }
 }
 
-/// The fields a token stands in for.
-pub const TOKEN_REPLACES: &[&str] = &[
-    "statistic",
-    "resamples",
-    "target_mc_error",
-    "seed",
-    "levels",
-    "methods",
-    "scheme",
-    "include",
-    "inner_resamples",
-];
+crate::wire_object! {
+    /// The body of `POST /v1/interval`. Only `data` is required. Unknown fields are refused
+    /// (422), so that a typo (`level` for `levels`) never silently changes a result.
+    pub struct IntervalRequest {
+        required
+        data: Data,
+        flatten
+        resampling: Resampling,
+    }
+}
+
+/// The fields of a request that a token does not stand in for: those that govern only this
+/// run, and the token itself.
+pub const TOKEN_KEEPS: &[&str] = &["time_limit_ms", "on_time_limit", "token"];
+
+/// Refuse every parameter a token stands in for that a request with a token also gives: its
+/// `fields` but its samples and [`TOKEN_KEEPS`].
+pub fn check_token(raw: &Map<String, Value>, fields: &[&str], samples: &[&str], errs: &mut Errors) {
+    let replaced = fields.iter().filter(|f| !samples.contains(f) && !TOKEN_KEEPS.contains(f));
+    for k in replaced.filter(|k| raw.contains_key(**k)) {
+        errs.refuse(
+            format!("/{k}"),
+            Rule::TokenReplacesParameters,
+            "a token stands in for this parameter; send either the token or the parameters, not both",
+        );
+    }
+}
 
 /// The parameters of a computation: what a token records.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -102,7 +116,7 @@ pub struct Params {
     pub inner_resamples: InnerResamples,
 }
 
-impl IntervalRequest {
+impl Resampling {
     /// The parameters given in the request's fields.
     pub fn params(&self) -> Params {
         Params {
@@ -117,22 +131,23 @@ impl IntervalRequest {
         }
     }
 
-    /// The rules between fields: a token with the parameters it stands in for, and the data
-    /// against the server's row limit.
-    pub fn check(&self, raw: &Map<String, Value>, limits: &Limits, errs: &mut Errors) {
+    /// The rules between fields: a token with the parameters it stands in for (every field of
+    /// the request `fields` but its `samples`), and the parameters against the server's limits.
+    pub fn check(&self, raw: &Map<String, Value>, fields: &[&str], samples: &[&str], limits: &Limits, errs: &mut Errors) {
         if self.token.is_some() {
-            for k in TOKEN_REPLACES.iter().filter(|k| raw.contains_key(**k)) {
-                errs.refuse(
-                    format!("/{k}"),
-                    Rule::TokenReplacesParameters,
-                    "a token stands in for this parameter; send either the token or the parameters, not both",
-                );
-            }
+            check_token(raw, fields, samples, errs);
         } else {
             for (pointer, rule, message) in check_params(&self.params(), limits) {
                 errs.refuse(pointer, rule, message);
             }
         }
+    }
+}
+
+impl IntervalRequest {
+    /// Every rule between the request's fields and the server's limits.
+    pub fn check(&self, raw: &Map<String, Value>, limits: &Limits, errs: &mut Errors) {
+        self.resampling.check(raw, &Self::fields(), &["data"], limits, errs);
         check_rows(&self.data.0, "/data", limits, errs);
     }
 }
@@ -226,5 +241,25 @@ pub fn job(p: &Params, samples: Samples, seed: u64, on_time_limit: OnTimeLimit, 
         recorded_stop: replay
             .filter(|_| p.resamples != Resamples::Mode(ResampleMode::Exact))
             .map(|r| r.stop),
+    }
+}
+
+/// What a comparison asks beside its samples: what a token of a comparison also records.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, utoipa::ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct Comparing {
+    pub contrast: Contrast,
+    pub paired: bool,
+    pub better: Better,
+    pub tolerance: Tolerance,
+}
+
+impl Comparing {
+    pub fn comparison(&self) -> Comparison {
+        Comparison {
+            contrast: self.contrast,
+            better: self.better,
+            tolerance: self.tolerance.get(),
+        }
     }
 }

@@ -22,6 +22,8 @@ crate::wire_enum! {
         BatchLimit = "batch_limit",
         /// Columns of equal length, one count per value, and at least 2 observations in all.
         SampleShape = "sample_shape",
+        /// Paired runs (`"paired": true`): baseline and candidate of the same length, pair i being the i-th of each.
+        PairedRows = "paired_rows",
         /// A statistic of one column needs an array or values with counts; a statistic of named columns needs `columns`.
         StatisticShape = "statistic_shape",
         /// A statistic's column parameters must name columns of the data.

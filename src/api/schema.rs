@@ -61,3 +61,54 @@ pub fn components<T: ToSchema>() -> BTreeMap<String, Value> {
         .map(|(name, s)| (name, serde_json::to_value(s).expect("a schema serialises")))
         .collect()
 }
+
+/// The schema of a request type with flattened parts (`#[serde(flatten)]`, which utoipa
+/// renders as an `allOf` of the parts) as one object that refuses unknown fields, as the
+/// parser does: a client sees one flat list of fields.
+pub fn flattened<T: ToSchema>() -> RefOr<Schema> {
+    let mut named = Vec::new();
+    T::schemas(&mut named);
+    let resolve = |part: &RefOr<Schema>| -> Vec<Object> {
+        let schema = match part {
+            RefOr::Ref(r) => {
+                let name = r.ref_location.rsplit('/').next().unwrap_or_default();
+                named
+                    .iter()
+                    .find(|(n, _)| n == name)
+                    .map(|(_, s)| s.clone())
+                    .unwrap_or_else(|| panic!("{name} is among the schemas of {}", T::name()))
+            }
+            other => other.clone(),
+        };
+        match flattened_parts(&schema) {
+            Some(parts) => parts,
+            None => panic!("the parts of {} are objects", T::name()),
+        }
+    };
+    let (description, parts): (Option<String>, Vec<Object>) = match T::schema() {
+        // The type's own fields first, then those of its flattened parts.
+        RefOr::T(Schema::AllOf(all)) => {
+            let (own, shared): (Vec<&RefOr<Schema>>, Vec<&RefOr<Schema>>) = all.items.iter().partition(|p| matches!(p, RefOr::T(_)));
+            (all.description.clone(), own.into_iter().chain(shared).flat_map(resolve).collect())
+        }
+        other => (None, resolve(&other)),
+    };
+    let mut out = ObjectBuilder::new().schema_type(Type::Object).build();
+    for p in parts {
+        out.description = out.description.or(p.description);
+        out.properties.extend(p.properties);
+        out.required.extend(p.required);
+    }
+    out.description = description.or(out.description);
+    out.additional_properties = Some(Box::new(AdditionalProperties::FreeForm(false)));
+    RefOr::T(Schema::Object(out))
+}
+
+/// The objects of a schema that is an object or an `allOf` of objects.
+fn flattened_parts(schema: &RefOr<Schema>) -> Option<Vec<Object>> {
+    match schema {
+        RefOr::T(Schema::Object(o)) => Some(vec![o.clone()]),
+        RefOr::T(Schema::AllOf(all)) => all.items.iter().map(flattened_parts).collect::<Option<Vec<_>>>().map(|v| v.concat()),
+        _ => None,
+    }
+}

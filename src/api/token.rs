@@ -14,6 +14,7 @@ use base64::engine::general_purpose::URL_SAFE_NO_PAD;
 use base64::Engine as _;
 use serde::{Deserialize, Serialize};
 
+use super::request::Comparing;
 use super::request::Params;
 use crate::engine::plan::Stop;
 use crate::engine::rng::GENERATOR;
@@ -34,6 +35,9 @@ pub struct TokenBody {
     pub drawn: u64,
     pub stop: Stop,
     pub params: Params,
+    /// What a comparison compared, for a token of `POST /v1/compare`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub comparing: Option<Comparing>,
     /// Hex SHA-256 of each sample's canonical encoding.
     pub data: Vec<String>,
 }
@@ -52,6 +56,7 @@ impl TokenBody {
             drawn,
             stop,
             params,
+            comparing: None,
             data: digests.iter().map(|d| hex(d)).collect(),
         }
     }

@@ -7,6 +7,7 @@ use crate::engine::interval::Method;
 use crate::engine::jackknife;
 use crate::engine::job::Job;
 use crate::engine::kernel::Target;
+use crate::engine::statistic::Weighted;
 use crate::engine::plan::{Resamples, AUTO_START};
 
 /// The estimated work of a job, and how many resamples it may draw within its limits.
@@ -27,9 +28,9 @@ pub struct OverLimit {
 
 /// Row-draws of one replicate, over every sample.
 fn per_resample(job: &Job, target: &Target) -> f64 {
-    let nested = job.wants(Method::Studentized) && !job.statistic.has_analytic_se();
+    let nested = job.nested_studentized();
     let factor = job.statistic.relative_cost() * if nested { 1.0 + job.inner_resamples.get() as f64 } else { 1.0 };
-    target.arms().iter().map(|a| a.estimator.units().base.len() as f64 * factor).sum()
+    target.estimators().iter().map(|e| e.units().base.len() as f64 * factor).sum()
 }
 
 /// Row-draws of BCa's jackknife, which runs once per job before the resamples.
@@ -37,9 +38,16 @@ fn jackknife_work(job: &Job, target: &Target) -> f64 {
     if !job.wants(Method::Bca) {
         return 0.0;
     }
-    let closed = job.statistic.has_closed_jackknife();
-    let per_arm = |u: crate::engine::statistic::Units| jackknife::cost_in_units(closed, u.base.len(), u.raw);
-    job.statistic.relative_cost() * target.arms().iter().map(|a| per_arm(a.estimator.units())).sum::<f64>()
+    let cost = job.statistic.relative_cost();
+    match target {
+        // Pairs leave out a row of both samples at a time, with no closed form.
+        Target::Paired { pair, .. } => 2.0 * cost * jackknife::cost_in_units(false, pair.units().base.len(), true),
+        _ => {
+            let closed = job.statistic.has_closed_jackknife();
+            let per: f64 = target.estimators().iter().map(|e| jackknife::cost_in_units(closed, e.units().base.len(), e.units().raw)).sum();
+            cost * per
+        }
+    }
 }
 
 /// The work of a job whose samples are laid out as `target`; `enumerated` is the number of

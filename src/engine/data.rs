@@ -89,6 +89,8 @@ pub enum DataError {
     TooFewRows { statistic: &'static str, needed: usize },
     #[error("the {statistic} of this data is undefined")]
     Undefined { statistic: &'static str },
+    #[error("has {candidate} rows and the baseline {baseline}; paired samples are rows of one column each, the same number on both sides")]
+    NotPaired { baseline: usize, candidate: usize },
 }
 
 fn quoted(names: &[String]) -> String {

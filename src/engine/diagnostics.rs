@@ -42,6 +42,8 @@ crate::wire_enum! {
         AutoTimeLimit = "auto_time_limit",
         /// With "exact", the nested bootstrap of a studentized interval is still random.
         InexactNestedStudentized = "inexact_nested_studentized",
+        /// A comparison has too few runs for any verdict but "inconclusive" at its level.
+        TooFewRuns = "too_few_runs",
     }
 }
 
@@ -295,6 +297,18 @@ pub fn auto_time_limit(resamples: u64) -> Warning {
     Warning::new(
         WarningCode::AutoTimeLimit,
         format!("\"auto\" stopped at the time limit after {resamples} resamples, before every endpoint's Monte Carlo error fell below its target share of the standard error."),
+    )
+}
+
+/// The warning for a comparison of `baseline` and `candidate` runs whose most extreme
+/// arrangement (two-sided p-value `floor`) is not rare enough to decide at `level`.
+pub fn too_few_runs(baseline: u64, candidate: u64, floor: f64, level: f64) -> Warning {
+    Warning::new(
+        WarningCode::TooFewRuns,
+        format!(
+            "with {baseline} baseline and {candidate} candidate runs, even the most lopsided arrangement of the runs has a two-sided p-value of {floor:.3}, above {:.3} (1 − level): the interval's tails rest on too few runs, so the verdict is \"inconclusive\". Gather more runs per side.",
+            1.0 - level
+        ),
     )
 }
 

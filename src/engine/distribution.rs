@@ -7,7 +7,7 @@ pub const TIE_TOLERANCE: f64 = 1e-12;
 
 /// The distribution of replicate values: sorted, with equal weights (sampled resamples) or
 /// with the exact probability of each distinct resample (exact enumeration).
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct ReplicateDistribution {
     sorted: Vec<f64>,
     /// Cumulative probabilities aligned with `sorted`, for exact enumeration.

@@ -10,11 +10,12 @@ use crate::engine::executor::{self, Budget, Replicates};
 use crate::engine::extras::{self, Extras};
 use crate::engine::interval::{bca, Method};
 use crate::engine::jackknife::{self, JackknifeKind};
-use crate::engine::job::{Include, Job, Resampled, Samples};
-use crate::engine::kernel::{contrast_se, Arm, Kernel, SeSource, Target};
+use crate::engine::job::{Contrast, Include, Job, Resampled, Samples};
+use crate::engine::kernel::{contrast_se, Arm, Kernel, Pair, SeSource, Target};
+use crate::engine::statistic::{Estimator, Weighted};
 use crate::engine::plan::{self, Ended, Plan, Resamples, Source, Stop};
 use crate::engine::scheme::SchemeError;
-use crate::engine::summary::{self, IntervalResult, Summary, SummaryInput};
+use crate::engine::summary::{self, IntervalResult, Reader, Summary, SummaryInput};
 
 /// Which sample of a job a problem is about.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -78,6 +79,8 @@ pub struct Outcome {
     pub intervals: Vec<IntervalResult>,
     pub diagnostics: Diagnostics,
     pub extras: Extras,
+    /// What the intervals were read from, to read more at other levels (a verdict, a family).
+    pub reader: Reader,
 }
 
 /// A job checked against its data and limits, laid out, ready to run.
@@ -114,6 +117,27 @@ fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<(Arm, f6
     ))
 }
 
+/// What is resampled, the estimate, and for two samples each one's estimate.
+type Laid = (Target, f64, Option<(f64, f64)>);
+
+/// Bind the statistic to two samples whose rows are pairs, resampled together by the
+/// baseline's scheme.
+fn paired(job: &Job, baseline: &Resampled, candidate: &Resampled, contrast: Contrast) -> Result<Laid, RunError> {
+    let (b, eb) = arm(job, baseline, Which::Baseline, 0)?;
+    let (c, ec) = arm(job, candidate, Which::Candidate, 1)?;
+    let (nb, nc) = (baseline.sample.rows(), candidate.sample.rows());
+    let pair = Pair::new(b.estimator, c.estimator, contrast).ok_or_else(|| RunError::Data {
+        which: Which::Candidate,
+        problems: vec![DataError::NotPaired { baseline: nb, candidate: nc }],
+    })?;
+    let units = pair.units();
+    let rows = match job.resamples {
+        Resamples::Exact => baseline.scheme.enumerator(units, job.max_resamples).map_err(RunError::Scheme)?,
+        _ => baseline.scheme.resampler(units),
+    };
+    Ok((Target::Paired { pair, rows }, contrast.of(ec, eb), Some((eb, ec))))
+}
+
 /// Check a job against its data and its limits and lay it out.
 pub fn prepare(job: Job) -> Result<Prepared, RunError> {
     let (target, estimate, sample_estimates) = match &job.samples {
@@ -125,6 +149,7 @@ pub fn prepare(job: Job) -> Result<Prepared, RunError> {
             baseline,
             candidate,
             contrast,
+            paired: false,
         } => {
             let (b, eb) = arm(&job, baseline, Which::Baseline, 0)?;
             let (c, ec) = arm(&job, candidate, Which::Candidate, 1)?;
@@ -135,6 +160,12 @@ pub fn prepare(job: Job) -> Result<Prepared, RunError> {
             };
             (target, contrast.of(ec, eb), Some((eb, ec)))
         }
+        Samples::Two {
+            baseline,
+            candidate,
+            contrast,
+            paired: true,
+        } => paired(&job, baseline, candidate, *contrast)?,
     };
     let enumerated = enumerated(&target, job.max_resamples)?;
     let work = cost::estimate(&job, &target, enumerated).map_err(|o| RunError::WorkLimit {
@@ -152,7 +183,7 @@ pub fn prepare(job: Job) -> Result<Prepared, RunError> {
 
 /// The number of distinct resamples of an enumeration over every sample (pairs, for two).
 fn enumerated(target: &Target, limit: u64) -> Result<Option<u64>, RunError> {
-    let counts: Option<Vec<u64>> = target.arms().iter().map(|a| a.resampler.enumerated()).collect();
+    let counts: Option<Vec<u64>> = target.resamplers().iter().map(|r| r.enumerated()).collect();
     let Some(counts) = counts else { return Ok(None) };
     let count = counts.iter().try_fold(1u64, |a, c| a.checked_mul(*c));
     match count {
@@ -190,7 +221,7 @@ impl Source for Run<'_> {
                 .iter()
                 .map(|iv| iv.endpoints.lower_mc_error.max(iv.endpoints.upper_mc_error))
                 .fold(0.0, f64::max);
-            worst <= target * s.standard_error
+            worst <= target * s.reader.standard_error
         })
     }
 }
@@ -241,6 +272,7 @@ impl Prepared {
                 let (b, c) = self.sample_estimates.expect("two samples");
                 Some(contrast_se(*contrast, (c, se(candidate)?), (b, se(baseline)?)))
             }
+            Target::Paired { .. } => None,
         }
     }
 
@@ -304,27 +336,41 @@ impl Prepared {
                 baseline,
                 candidate,
                 contrast,
-            } => {
-                let (eb, ec) = self.sample_estimates.expect("two samples");
-                let jb = jackknife::jackknife(&baseline.estimator, &stop).map_err(stopped)?;
-                let jc = jackknife::jackknife(&candidate.estimator, &stop).map_err(stopped)?;
-                let (Some(jb), Some(jc)) = (jb, jc) else { return Ok(None) };
-                let vb: Vec<f64> = jb.values.iter().map(|b| contrast.of(ec, *b)).collect();
-                let vc: Vec<f64> = jc.values.iter().map(|c| contrast.of(*c, eb)).collect();
-                let samples = [(&vb[..], &jb.multiplicity[..]), (&vc[..], &jc.multiplicity[..])];
-                // The coarser of the two ways stands for both.
-                let (kind, groups) = if jb.kind == JackknifeKind::Grouped {
-                    (jb.kind, jb.groups)
-                } else {
-                    (jc.kind, jc.groups)
-                };
-                Ok(Some(JackknifeFacts {
-                    acceleration: bca::acceleration_of_samples(&samples),
-                    kind,
-                    groups,
+            } => self.jackknife_of_two(&baseline.estimator, &candidate.estimator, *contrast, &stop).map_err(stopped),
+            Target::Paired { pair, .. } => {
+                let j = jackknife::jackknife(pair, &stop).map_err(stopped)?;
+                Ok(j.map(|j| JackknifeFacts {
+                    acceleration: bca::acceleration(&j.values, &j.multiplicity),
+                    kind: j.kind,
+                    groups: j.groups,
                 }))
             }
         }
+    }
+
+    /// The two-sample jackknife: each sample's observations left out in turn, the other kept
+    /// whole, and the acceleration of several samples.
+    fn jackknife_of_two(
+        &self,
+        baseline: &Estimator,
+        candidate: &Estimator,
+        contrast: Contrast,
+        stop: &(dyn Fn() -> bool + Sync),
+    ) -> Result<Option<JackknifeFacts>, jackknife::Stopped> {
+        let (eb, ec) = self.sample_estimates.expect("two samples");
+        let jb = jackknife::jackknife(baseline, stop)?;
+        let jc = jackknife::jackknife(candidate, stop)?;
+        let (Some(jb), Some(jc)) = (jb, jc) else { return Ok(None) };
+        let vb: Vec<f64> = jb.values.iter().map(|b| contrast.of(ec, *b)).collect();
+        let vc: Vec<f64> = jc.values.iter().map(|c| contrast.of(*c, eb)).collect();
+        let samples = [(&vb[..], &jb.multiplicity[..]), (&vc[..], &jc.multiplicity[..])];
+        // The coarser of the two ways stands for both.
+        let (kind, groups) = if jb.kind == JackknifeKind::Grouped { (jb.kind, jb.groups) } else { (jc.kind, jc.groups) };
+        Ok(Some(JackknifeFacts {
+            acceleration: bca::acceleration_of_samples(&samples),
+            kind,
+            groups,
+        }))
     }
 
     /// The resamples the job asks for, for time-limit messages.
@@ -355,12 +401,12 @@ impl Prepared {
             Stop::AutoTime => warnings.push(diagnostics::auto_time_limit(reps.len() as u64)),
             Stop::Done | Stop::AutoTarget => {}
         }
-        let nested = job.wants(Method::Studentized) && !job.statistic.has_analytic_se();
+        let nested = job.nested_studentized();
         let diagnostics = Diagnostics {
-            z0: s.z0,
+            z0: s.reader.bca.z0,
             acceleration: job.wants(Method::Bca).then(|| jack.as_ref().map_or(0.0, |j| j.acceleration)),
-            replicate_skewness: s.dist.skewness(),
-            distinct_replicate_values: s.dist.distinct(),
+            replicate_skewness: s.reader.dist.skewness(),
+            distinct_replicate_values: s.reader.dist.distinct(),
             undefined_replicates: (reps.len() - s.kept.len()) as u64,
             jackknife: jack.as_ref().map(|j| (j.kind, j.groups)),
             studentized_standard_error: job.wants(Method::Studentized).then_some(if nested {
@@ -376,17 +422,18 @@ impl Prepared {
             extras,
             estimate: self.estimate,
             sample_estimates: self.sample_estimates,
-            standard_error: s.standard_error,
-            standard_error_mc_error: s.standard_error_mc_error,
-            bias: s.bias,
-            bias_mc_error: s.bias_mc_error,
-            bias_corrected_estimate: self.estimate - s.bias,
+            standard_error: s.reader.standard_error,
+            standard_error_mc_error: s.reader.standard_error_mc_error,
+            bias: s.reader.bias,
+            bias_mc_error: s.reader.bias_mc_error,
+            bias_corrected_estimate: self.estimate - s.reader.bias,
             n: self.samples().iter().map(|x| x.n()).collect(),
             resamples: reps.len() as u64,
             complete: stop != Stop::TimeLimit,
             stop,
             intervals: s.intervals,
             diagnostics,
+            reader: s.reader,
         }
     }
 
@@ -396,8 +443,8 @@ impl Prepared {
         let all = job.includes(Include::Replicates);
         let kept = || s.kept.iter().map(|&i| reps[i]);
         Extras {
-            histogram: job.includes(Include::Histogram).then(|| extras::histogram(&s.dist)),
-            cdf: job.includes(Include::Cdf).then(|| extras::cdf(&s.dist)),
+            histogram: job.includes(Include::Histogram).then(|| extras::histogram(&s.reader.dist)),
+            cdf: job.includes(Include::Cdf).then(|| extras::cdf(&s.reader.dist)),
             replicates: all.then(|| kept().map(|r| r.value).collect()),
             replicate_standard_errors: (all && job.wants(Method::Studentized))
                 .then(|| kept().map(|r| if r.se.is_finite() { r.se } else { 0.0 }).collect()),
@@ -412,22 +459,22 @@ impl Prepared {
     /// What the warnings are decided from.
     fn facts<'a>(&'a self, reps: &Replicates, s: &'a Summary, no_acceleration: bool) -> Facts<'a> {
         let job = &self.job;
-        let arms = self.target.arms();
-        let n = arms.iter().map(|a| a.estimator.units().total).fold(f64::INFINITY, f64::min);
-        let lag1 = arms
+        let n = self.target.estimators().iter().map(|e| e.units().total).fold(f64::INFINITY, f64::min);
+        let independent = self.target.resamplers().iter().all(|r| r.independent_rows());
+        let lag1 = self
+            .samples()
             .iter()
-            .zip(self.samples())
-            .filter(|(a, _)| a.resampler.independent_rows())
-            .filter_map(|(_, sample)| match sample.form() {
+            .filter(|_| independent)
+            .filter_map(|sample| match sample.form() {
                 Form::Column(x) => diagnostics::lag1_autocorrelation(x),
                 _ => None,
             })
             .reduce(f64::max);
         Facts {
             n,
-            dist: &s.dist,
-            bias: s.bias,
-            standard_error: s.standard_error,
+            dist: &s.reader.dist,
+            bias: s.reader.bias,
+            standard_error: s.reader.standard_error,
             levels: &job.levels,
             methods: &job.methods,
             undefined: (reps.len() - s.kept.len()) as u64,
@@ -438,7 +485,7 @@ impl Prepared {
             bca_levels: s.bca_levels.clone(),
             bca_no_acceleration: job.wants(Method::Bca) && no_acceleration,
             studentized_dropped: s.studentized_dropped,
-            inexact_nested: self.enumerated().is_some() && job.wants(Method::Studentized) && !job.statistic.has_analytic_se(),
+            inexact_nested: self.enumerated().is_some() && job.nested_studentized(),
         }
     }
 }

@@ -22,7 +22,7 @@ use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
-use crate::engine::statistic::{Estimator, Scratch};
+use crate::engine::statistic::{Scratch, Weighted};
 
 /// Raw rows up to which the generic jackknife leaves out each row in turn.
 pub const GENERIC_LIMIT: usize = 2000;
@@ -77,7 +77,7 @@ pub fn cost_in_units(closed_form: bool, units: usize, raw: bool) -> f64 {
 
 /// The jackknife of a statistic on its sample; `Ok(None)` with fewer than 3 observations, or
 /// for aggregated data beyond [`AGGREGATED_LIMIT`] without a closed form.
-pub fn jackknife(est: &Estimator, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+pub fn jackknife(est: &dyn Weighted, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
     let u = est.units();
     if u.total < 3.0 {
         return Ok(None);
@@ -115,7 +115,7 @@ fn stop_flag(stop: &(dyn Fn() -> bool + Sync)) -> (AtomicBool, impl Fn(&AtomicBo
 }
 
 /// Leave out one observation of each unit in turn.
-fn leave_one_out(est: &Estimator, base: Vec<f64>, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+fn leave_one_out(est: &dyn Weighted, base: Vec<f64>, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
     let units = base.len();
     let (stopped, check) = stop_flag(stop);
     let values: Vec<f64> = (0..units)
@@ -146,7 +146,7 @@ fn leave_one_out(est: &Estimator, base: Vec<f64>, stop: &(dyn Fn() -> bool + Syn
 
 /// Leave out groups of rows in turn: [`GROUPS`] groups of (almost) equal size dealt by a fixed
 /// permutation.
-fn grouped(est: &Estimator, base: Vec<f64>, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+fn grouped(est: &dyn Weighted, base: Vec<f64>, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
     let units = base.len();
     let (stopped, check) = stop_flag(stop);
     // Rows dealt into GROUPS groups of (almost) equal size by a fixed permutation.
@@ -201,7 +201,7 @@ mod tests {
     use crate::engine::data::ColumnLayout;
     use crate::engine::interval::bca::acceleration;
     use crate::engine::statistic::location::Mean;
-    use crate::engine::statistic::ColumnStatistic;
+    use crate::engine::statistic::{ColumnStatistic, Estimator};
     use rand_distr::{Distribution, StandardNormal};
 
     /// The mean without its closed form, to send it down the generic paths.

@@ -55,18 +55,6 @@ impl Contrast {
     }
 }
 
-crate::wire_enum! {
-    /// How the intervals and verdicts of a family of comparisons hold together.
-    pub enum Multiplicity default None {
-        /// Each at its own level.
-        None = "none",
-        /// Each at level 1 − α/m for m comparisons (the Bonferroni bound).
-        Bonferroni = "bonferroni",
-        /// Holm's step-down procedure (Holm 1979), which rejects at least what Bonferroni does.
-        Holm = "holm",
-    }
-}
-
 /// A sample with the scheme that resamples it. Whatever a scheme reads beside the values (the
 /// group labels of strata or clusters) is per-row data of this sample, so it travels here.
 #[derive(Debug, Clone)]
@@ -96,6 +84,9 @@ pub enum Samples {
         baseline: Resampled,
         candidate: Resampled,
         contrast: Contrast,
+        /// The samples' rows are pairs (runs interleaved on one machine), resampled together
+        /// from one stream by the baseline's scheme.
+        paired: bool,
     },
 }
 
@@ -157,6 +148,14 @@ impl Job {
     /// True when the job asks for this method.
     pub fn wants(&self, method: Method) -> bool {
         self.methods.contains(&method)
+    }
+
+    /// True when studentized intervals are asked for and need a nested bootstrap: the statistic
+    /// has no analytic standard error, or paired samples (whose covariance no analytic form
+    /// here knows) are compared.
+    pub fn nested_studentized(&self) -> bool {
+        let paired = matches!(self.samples, Samples::Two { paired: true, .. });
+        self.wants(Method::Studentized) && (paired || !self.statistic.has_analytic_se())
     }
 
     /// True when the job asks for this part of the result.

@@ -10,7 +10,7 @@ use crate::engine::executor::Replicate;
 use crate::engine::job::Contrast;
 use crate::engine::rng::sample_stream;
 use crate::engine::scheme::{Resampler, Within};
-use crate::engine::statistic::{Estimator, Scratch};
+use crate::engine::statistic::{Estimator, Scratch, Units, Weighted};
 
 crate::wire_enum! {
     /// How a studentized interval had each resample's standard error.
@@ -36,18 +36,91 @@ impl Arm {
     }
 }
 
+/// Two statistics whose samples share their rows (paired runs), as one function of weights
+/// over the rows: each sample's units get the weight of their row.
+pub struct Pair {
+    pub baseline: Estimator,
+    pub candidate: Estimator,
+    pub contrast: Contrast,
+    /// The unit of each row, per sample.
+    unit_of_row: [Vec<u32>; 2],
+    /// Every row's base weight, 1.
+    rows: Vec<f64>,
+}
+
+impl Pair {
+    /// Pair two statistics whose samples have the same rows; `None` when a sample has no rows
+    /// (aggregated data) or their numbers differ.
+    pub fn new(baseline: Estimator, candidate: Estimator, contrast: Contrast) -> Option<Pair> {
+        let (b, c) = (baseline.unit_of_row()?, candidate.unit_of_row()?);
+        (b.len() == c.len()).then(|| Pair {
+            rows: vec![1.0; b.len()],
+            unit_of_row: [b, c],
+            baseline,
+            candidate,
+            contrast,
+        })
+    }
+}
+
+impl Weighted for Pair {
+    fn units(&self) -> Units<'_> {
+        Units {
+            base: &self.rows,
+            total: self.rows.len() as f64,
+            raw: true,
+        }
+    }
+
+    fn evaluate(&self, w: &[f64], scratch: &mut Scratch) -> f64 {
+        let [mut wb, mut wc] = std::mem::take(&mut scratch.pair);
+        let mut side = |est: &Estimator, map: &[u32], buf: &mut Vec<f64>| {
+            buf.clear();
+            buf.resize(est.units().base.len(), 0.0);
+            for (row, unit) in map.iter().enumerate() {
+                buf[*unit as usize] += w[row];
+            }
+            est.evaluate(buf, scratch)
+        };
+        let b = side(&self.baseline, &self.unit_of_row[0], &mut wb);
+        let c = side(&self.candidate, &self.unit_of_row[1], &mut wc);
+        scratch.pair = [wb, wc];
+        self.contrast.of(c, b)
+    }
+}
+
 /// What a job resamples.
 pub enum Target {
     One(Arm),
+    /// Two samples, each from its own streams.
     Two { baseline: Arm, candidate: Arm, contrast: Contrast },
+    /// Two samples whose rows are resampled together, from one stream.
+    Paired { pair: Pair, rows: Box<dyn Resampler> },
 }
 
 impl Target {
-    /// The arms, baseline first.
+    /// The arms that resample on their own, baseline first (none for pairs).
     pub fn arms(&self) -> Vec<&Arm> {
         match self {
             Target::One(a) => vec![a],
             Target::Two { baseline, candidate, .. } => vec![baseline, candidate],
+            Target::Paired { .. } => vec![],
+        }
+    }
+
+    /// The statistics, baseline first.
+    pub fn estimators(&self) -> Vec<&Estimator> {
+        match self {
+            Target::Paired { pair, .. } => vec![&pair.baseline, &pair.candidate],
+            _ => self.arms().into_iter().map(|a| &a.estimator).collect(),
+        }
+    }
+
+    /// The resamplers, one per independent part.
+    pub fn resamplers(&self) -> Vec<&dyn Resampler> {
+        match self {
+            Target::Paired { rows, .. } => vec![rows.as_ref()],
+            _ => self.arms().into_iter().map(|a| a.resampler.as_ref()).collect(),
         }
     }
 }
@@ -74,10 +147,13 @@ pub struct Kernel<'a> {
 
 impl Kernel<'_> {
     pub fn worker(&self) -> Worker {
-        let units = self.target.arms().iter().map(|a| a.units()).max().unwrap_or(0);
-        let arms = self.target.arms();
+        let sizes: Vec<usize> = match self.target {
+            Target::Paired { pair, .. } => vec![pair.units().base.len()],
+            _ => self.target.arms().iter().map(|a| a.units()).collect(),
+        };
+        let units = sizes.iter().copied().max().unwrap_or(0);
         Worker {
-            w: [vec![0.0; arms[0].units()], arms.get(1).map_or(Vec::new(), |a| vec![0.0; a.units()])],
+            w: [vec![0.0; sizes[0]], vec![0.0; sizes.get(1).copied().unwrap_or(0)]],
             w_inner: vec![0.0; units],
             within: Within::default(),
             inner_values: Vec::new(),
@@ -89,7 +165,7 @@ impl Kernel<'_> {
     pub fn replicate(&self, i: u64, wk: &mut Worker, stop: &dyn Fn() -> bool) -> Option<Replicate> {
         match self.target {
             Target::One(arm) => {
-                let (value, se, probability) = self.arm_replicate(arm, i, 0, wk, stop)?;
+                let (value, se, probability) = self.part_replicate(&arm.estimator, arm.resampler.as_ref(), arm.stream, i, wk, stop)?;
                 Some(Replicate { value, se, probability })
             }
             Target::Two {
@@ -103,40 +179,63 @@ impl Kernel<'_> {
                     Some(_) => (i / per_baseline, i % per_baseline),
                     None => (i, i),
                 };
-                let (b, se_b, p_b) = self.arm_replicate(baseline, ib, 0, wk, stop)?;
-                let (c, se_c, p_c) = self.arm_replicate(candidate, ic, 1, wk, stop)?;
+                let (b, se_b, p_b) = self.part_replicate(&baseline.estimator, baseline.resampler.as_ref(), baseline.stream, ib, wk, stop)?;
+                let (c, se_c, p_c) = self.part_replicate(&candidate.estimator, candidate.resampler.as_ref(), candidate.stream, ic, wk, stop)?;
                 Some(Replicate {
                     value: contrast.of(c, b),
                     se: contrast_se(*contrast, (c, se_c), (b, se_b)),
                     probability: p_b * p_c,
                 })
             }
+            Target::Paired { pair, rows } => {
+                let (value, se, probability) = self.part_replicate(pair, rows.as_ref(), 0, i, wk, stop)?;
+                Some(Replicate { value, se, probability })
+            }
         }
     }
 
-    /// One arm's value, standard error and probability for its replicate `i`, in weight slot `k`.
-    fn arm_replicate(&self, arm: &Arm, i: u64, k: usize, wk: &mut Worker, stop: &dyn Fn() -> bool) -> Option<(f64, f64, f64)> {
-        let mut rng = sample_stream(self.seed, arm.stream, i);
-        let probability = arm.resampler.draw(i, &mut rng, &mut wk.w[k]).unwrap_or(1.0);
-        let value = arm.estimator.evaluate(&wk.w[k], &mut wk.scratch);
+    /// The value, standard error and probability of replicate `i` of one independently
+    /// resampled part (a sample, or a pair of samples sharing rows), drawn from stream `stream`
+    /// into the weight slot of the same number.
+    fn part_replicate(
+        &self,
+        part: &dyn Weighted,
+        resampler: &dyn Resampler,
+        stream: u8,
+        i: u64,
+        wk: &mut Worker,
+        stop: &dyn Fn() -> bool,
+    ) -> Option<(f64, f64, f64)> {
+        let k = usize::from(stream);
+        let mut rng = sample_stream(self.seed, stream, i);
+        let probability = resampler.draw(i, &mut rng, &mut wk.w[k]).unwrap_or(1.0);
+        let value = part.evaluate(&wk.w[k], &mut wk.scratch);
         let se = if self.studentized {
-            self.standard_error(arm, k, &mut rng, wk, stop)?
+            self.standard_error(part, resampler, k, &mut rng, wk, stop)?
         } else {
             f64::NAN
         };
         Some((value, se, probability))
     }
 
-    /// The standard error of the statistic on the resample in weight slot `k`: analytic where
-    /// the statistic has one, else the standard deviation of `inner` resamples drawn from within
-    /// the resample by the same scheme (continuing the replicate's own stream, so it stays
-    /// reproducible). `None` when `stop` said to stop.
-    fn standard_error(&self, arm: &Arm, k: usize, rng: &mut ChaCha8Rng, wk: &mut Worker, stop: &dyn Fn() -> bool) -> Option<f64> {
-        if let Some(se) = arm.estimator.analytic_se(&wk.w[k]) {
+    /// The standard error on the resample in weight slot `k`: analytic where there is one,
+    /// else the standard deviation of `inner` resamples drawn from within the resample by the
+    /// same scheme (continuing the replicate's own stream, so it stays reproducible). `None`
+    /// when `stop` said to stop.
+    fn standard_error(
+        &self,
+        part: &dyn Weighted,
+        resampler: &dyn Resampler,
+        k: usize,
+        rng: &mut ChaCha8Rng,
+        wk: &mut Worker,
+        stop: &dyn Fn() -> bool,
+    ) -> Option<f64> {
+        if let Some(se) = part.analytic_se(&wk.w[k]) {
             return Some(se);
         }
-        let units = arm.units();
-        arm.resampler.prepare_within(&wk.w[k], &mut wk.within);
+        let units = part.units().base.len();
+        resampler.prepare_within(&wk.w[k], &mut wk.within);
         wk.inner_values.clear();
         for j in 0..self.inner {
             // A nested bootstrap can be long: look at the deadline every few inner resamples.
@@ -144,8 +243,8 @@ impl Kernel<'_> {
                 return None;
             }
             let inner = &mut wk.w_inner[..units];
-            arm.resampler.draw_within(&wk.w[k], &wk.within, rng, inner);
-            let v = arm.estimator.evaluate(inner, &mut wk.scratch);
+            resampler.draw_within(&wk.w[k], &wk.within, rng, inner);
+            let v = part.evaluate(inner, &mut wk.scratch);
             if v.is_finite() {
                 wk.inner_values.push(v);
             }

@@ -1,5 +1,7 @@
 //! The summary of the replicates: standard error, bias, every interval, and the Monte Carlo
-//! error of each.
+//! error of each. A [`Reader`] keeps what the intervals are read from, so that any method's
+//! interval can be read at any level after the run (a family's adjusted level, a p-value by
+//! inverting the interval).
 
 use crate::engine::distribution::ReplicateDistribution;
 use crate::engine::executor::Replicate;
@@ -29,18 +31,55 @@ pub struct IntervalResult {
     pub endpoints: Endpoints,
 }
 
-/// The summary.
-#[derive(Debug, Clone)]
-pub struct Summary {
+/// Everything an interval is read from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Reader {
     /// The distribution of the defined replicates.
     pub dist: ReplicateDistribution,
-    /// Indices (in stream order) of the replicates whose value is defined.
-    pub kept: Vec<usize>,
+    /// The studentized replicates, when asked for and some have a standard error.
+    t_dist: Option<ReplicateDistribution>,
+    pub estimate: f64,
     pub standard_error: f64,
     pub standard_error_mc_error: f64,
     pub bias: f64,
     pub bias_mc_error: f64,
-    pub z0: f64,
+    /// The standard error that scales the studentized interval back.
+    se_hat: f64,
+    pub bca: bca::BcaConstants,
+}
+
+impl Reader {
+    /// The interval of `method` at `level`.
+    pub fn interval(&self, method: Method, level: f64) -> Endpoints {
+        let (estimate, dist) = (self.estimate, &self.dist);
+        match method {
+            Method::Percentile => interval::percentile::interval(dist, level),
+            Method::Basic => interval::basic::interval(dist, estimate, level),
+            Method::Normal => interval::normal::interval(
+                estimate,
+                self.bias,
+                self.standard_error,
+                self.bias_mc_error,
+                self.standard_error_mc_error,
+                dist,
+                level,
+            ),
+            Method::Bca => bca::interval(dist, &self.bca, level),
+            Method::Studentized => match &self.t_dist {
+                Some(t) => interval::studentized::interval(t, estimate, self.se_hat, level),
+                // Every se* was zero: the resamples do not vary, nor does the interval.
+                None => Endpoints::point(estimate),
+            },
+        }
+    }
+}
+
+/// The summary.
+#[derive(Debug, Clone)]
+pub struct Summary {
+    pub reader: Reader,
+    /// Indices (in stream order) of the replicates whose value is defined.
+    pub kept: Vec<usize>,
     pub z0_clamped: bool,
     pub intervals: Vec<IntervalResult>,
     /// (lower, upper) adjusted quantile levels of each BCa interval.
@@ -68,34 +107,59 @@ pub fn summarize(input: &SummaryInput) -> Result<Summary, NoDefinedReplicates> {
         ReplicateDistribution::sampled(&values)
     };
     let standard_error = dist.sd();
-    let bias = dist.mean() - input.estimate;
     let (z0, z0_clamped) = bca::z0(&dist, input.estimate);
-    let mut summary = Summary {
+    let se_hat = input.analytic_se.unwrap_or(standard_error);
+    let (t_dist, studentized_dropped) = if input.methods.contains(&Method::Studentized) {
+        studentized(input, &kept, se_hat.max(standard_error))
+    } else {
+        (None, 0)
+    };
+    let reader = Reader {
         standard_error,
         standard_error_mc_error: montecarlo::standard_error_mc_error(&dist),
-        bias,
+        bias: dist.mean() - input.estimate,
         bias_mc_error: montecarlo::bias_mc_error(&dist),
-        z0,
-        z0_clamped,
-        intervals: Vec::new(),
-        bca_levels: Vec::new(),
-        studentized_dropped: 0,
+        estimate: input.estimate,
+        se_hat,
+        bca: bca::BcaConstants {
+            z0,
+            acceleration: input.acceleration.unwrap_or(0.0),
+            z0_clamped,
+        },
+        t_dist,
         dist,
-        kept,
     };
-    summary.intervals = intervals(input, &mut summary);
-    Ok(summary)
+    let intervals: Vec<IntervalResult> = input
+        .methods
+        .iter()
+        .flat_map(|&method| input.levels.iter().map(move |&level| (method, level)))
+        .map(|(method, level)| IntervalResult {
+            method,
+            level,
+            endpoints: reader.interval(method, level),
+        })
+        .collect();
+    let bca_levels = intervals.iter().filter(|iv| iv.method == Method::Bca).filter_map(|iv| iv.endpoints.quantile_levels).collect();
+    Ok(Summary {
+        reader,
+        kept,
+        z0_clamped,
+        intervals,
+        bca_levels,
+        studentized_dropped,
+    })
 }
 
 /// The studentized replicates t* = (θ* − θ̂)/se* over the kept replicates whose se* is positive
-/// and finite, with the count of those left out; `None` when none is left.
-fn studentized(input: &SummaryInput, s: &Summary, se_hat: f64) -> (Option<ReplicateDistribution>, u64) {
+/// and finite, with the count of those left out; `None` when none is left. `scale` is the
+/// larger of the sample's two standard errors.
+fn studentized(input: &SummaryInput, kept: &[usize], scale: f64) -> (Option<ReplicateDistribution>, u64) {
     // A resample whose values are all equal has a standard error of 0, which rounding can turn
     // into 1e-17; such a se* would blow t* up to 1e15. Anything below this share of the
     // sample's standard error counts as zero.
-    let tiny_se = 1e-9 * se_hat.max(s.standard_error);
+    let tiny_se = 1e-9 * scale;
     let (mut t, mut tp, mut dropped) = (Vec::new(), Vec::new(), 0);
-    for &i in &s.kept {
+    for &i in kept {
         let r = input.replicates[i];
         if r.se.is_finite() && r.se > tiny_se {
             t.push((r.value - input.estimate) / r.se);
@@ -110,52 +174,4 @@ fn studentized(input: &SummaryInput, s: &Summary, se_hat: f64) -> (Option<Replic
         (false, false) => Some(ReplicateDistribution::sampled(&t)),
     };
     (dist, dropped)
-}
-
-/// Every requested method at every requested level, methods first.
-fn intervals(input: &SummaryInput, s: &mut Summary) -> Vec<IntervalResult> {
-    let constants = bca::BcaConstants {
-        z0: s.z0,
-        acceleration: input.acceleration.unwrap_or(0.0),
-        z0_clamped: s.z0_clamped,
-    };
-    let se_hat = input.analytic_se.unwrap_or(s.standard_error);
-    let t_dist = if input.methods.contains(&Method::Studentized) {
-        let (dist, dropped) = studentized(input, s, se_hat);
-        s.studentized_dropped = dropped;
-        dist
-    } else {
-        None
-    };
-    let (estimate, dist) = (input.estimate, &s.dist);
-    let mut out = Vec::new();
-    for &method in input.methods {
-        for &level in input.levels {
-            let endpoints = match method {
-                Method::Percentile => interval::percentile::interval(dist, level),
-                Method::Basic => interval::basic::interval(dist, estimate, level),
-                Method::Normal => interval::normal::interval(
-                    estimate,
-                    s.bias,
-                    s.standard_error,
-                    s.bias_mc_error,
-                    s.standard_error_mc_error,
-                    dist,
-                    level,
-                ),
-                Method::Bca => {
-                    let e = bca::interval(dist, &constants, level);
-                    s.bca_levels.extend(e.quantile_levels);
-                    e
-                }
-                Method::Studentized => match &t_dist {
-                    Some(t) => interval::studentized::interval(t, estimate, se_hat, level),
-                    // Every se* was zero: the resamples do not vary, nor does the interval.
-                    None => Endpoints::point(estimate),
-                },
-            };
-            out.push(IntervalResult { method, level, endpoints });
-        }
-    }
-    out
 }

@@ -59,6 +59,11 @@ macro_rules! wire_enum {
                 Self::ALL.iter().copied().find(|v| v.name() == name)
             }
 
+            /// Every wire name quoted, for messages: `"a", "b"`.
+            pub fn quoted() -> String {
+                Self::ALL.iter().map(|v| format!("\"{}\"", v.name())).collect::<Vec<_>>().join(", ")
+            }
+
             /// Every wire name with its meaning, one per line, for documents.
             pub fn described() -> String {
                 Self::ALL.iter().map(|v| format!("- `{}`: {}", v.name(), v.doc())).collect::<Vec<_>>().join("\n")

@@ -21,7 +21,7 @@ use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
 use serde_json::{json, Map, Value};
 
-use crate::common::{document, schema_validator, TestApp};
+use crate::common::{document, ok, schema_validator, without_timing, TestApp};
 
 const COMMITTED: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/openapi/openapi.json");
 const API_MD: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/docs/api.md");
@@ -80,6 +80,11 @@ const ROUTES: &[(&str, &str, &[&str])] = &[
     (
         "post",
         "/v1/interval",
+        &["200", "400", "401", "409", "413", "415", "422", "500", "503"],
+    ),
+    (
+        "post",
+        "/v1/compare",
         &["200", "400", "401", "409", "413", "415", "422", "500", "503"],
     ),
     ("post", "/v1/batch", &["200", "400", "401", "413", "415", "422", "500", "503"]),
@@ -216,6 +221,23 @@ fn examples(doc: &Value) -> Vec<(String, Value, Value, bool)> {
 
 #[tokio::test]
 async fn every_example_validates_and_every_request_example_is_accepted() {
+    let app = TestApp::spawn().await;
+    // The comparison's example response is the server's own answer to its example request.
+    let answer = ok(app.post("/v1/compare", &bandsaw::api::openapi::compare_request_example()).await);
+    let file = concat!(env!("CARGO_MANIFEST_DIR"), "/openapi/compare_response_example.json");
+    if std::env::var_os("BANDSAW_WRITE_EXAMPLES").is_some() {
+        std::fs::write(file, serde_json::to_string_pretty(&answer).unwrap() + "\n").unwrap();
+    }
+    let untimed = |mut v: Value| {
+        v["contrast"].as_object_mut().unwrap().remove("elapsed_ms");
+        without_timing(v)
+    };
+    assert_eq!(
+        untimed(bandsaw::api::openapi::compare_response_example()),
+        untimed(answer),
+        "the example response of /v1/compare is not what the server answers to its example request; \
+         rewrite it with BANDSAW_WRITE_EXAMPLES=1 cargo test --release --test service contract"
+    );
     let doc = document();
     let all = examples(doc);
     assert!(all.len() >= 15, "{} examples", all.len());
@@ -230,9 +252,8 @@ async fn every_example_validates_and_every_request_example_is_accepted() {
         "examples that do not match their schemas:\n{}",
         failures.join("\n")
     );
-    let app = TestApp::spawn().await;
     let requests: Vec<_> = all.iter().filter(|e| e.3).collect();
-    assert_eq!(requests.len(), 2, "one request example per compute route");
+    assert_eq!(requests.len(), 3, "one request example per compute route");
     for (at, _, example, _) in requests {
         let path = at.split(' ').nth(1).unwrap();
         let (status, _, body) = app.post(path, example).await;
@@ -472,15 +493,19 @@ fn schema_of(name: &str) -> &'static Value {
 #[test]
 fn every_field_the_parser_reads_is_in_the_document() {
     use bandsaw::api::batch::BatchRequest;
+    use bandsaw::api::compare::CompareRequest;
     use bandsaw::api::request::IntervalRequest;
-    let fields = |f: &[&str]| f.iter().map(|s| s.to_string()).collect::<BTreeSet<_>>();
-    assert_eq!(fields(IntervalRequest::FIELDS), properties(schema_of("IntervalRequest")));
-    assert_eq!(fields(BatchRequest::FIELDS), properties(schema_of("BatchRequest")));
-    let mut job = fields(IntervalRequest::FIELDS);
-    job.insert("kind".into());
-    assert_eq!(job, properties(schema_of("IntervalJob")));
+    let fields = |f: Vec<&str>| f.into_iter().map(String::from).collect::<BTreeSet<_>>();
+    assert_eq!(fields(IntervalRequest::fields()), properties(schema_of("IntervalRequest")));
+    assert_eq!(fields(CompareRequest::fields()), properties(schema_of("CompareRequest")));
+    assert_eq!(fields(BatchRequest::fields()), properties(schema_of("BatchRequest")));
+    for (job, request) in [("IntervalJob", IntervalRequest::fields()), ("CompareJob", CompareRequest::fields())] {
+        let mut expected = fields(request);
+        expected.insert("kind".into());
+        assert_eq!(expected, properties(schema_of(job)), "{job}");
+    }
     // Unknown fields are refused, and the document says so.
-    for name in ["IntervalRequest", "BatchRequest", "IntervalJob"] {
+    for name in ["IntervalRequest", "CompareRequest", "BatchRequest", "IntervalJob", "CompareJob"] {
         assert_eq!(schema_of(name)["additionalProperties"], json!(false), "{name}");
     }
 }
@@ -632,10 +657,18 @@ fn enum_set(name: &str) -> BTreeSet<String> {
 fn docs_api_md_names_what_the_document_names() {
     let text = std::fs::read_to_string(API_MD).expect("docs/api.md");
     let fields = first_column(&text, "field");
-    assert_eq!(fields.len(), 3, "three field tables: interval request, response, batch");
+    assert_eq!(fields.len(), 5, "five field tables: interval request and response, compare request and response, batch");
     assert_eq!(set(&fields[0]), properties(schema_of("IntervalRequest")), "interval request fields");
     assert_eq!(set(&fields[1]), properties(schema_of("IntervalResponse")), "response fields");
-    assert_eq!(set(&fields[2]), properties(schema_of("BatchRequest")), "batch fields");
+    // A comparison's own fields; the page says it takes the interval's others but `data`.
+    let interval_fields = properties(schema_of("IntervalRequest"));
+    let own: BTreeSet<String> = properties(schema_of("CompareRequest")).difference(&interval_fields).cloned().collect();
+    assert_eq!(set(&fields[2]), own, "compare request fields");
+    let shared: BTreeSet<String> = interval_fields.iter().filter(|f| *f != "data").cloned().collect();
+    assert!(shared.is_subset(&properties(schema_of("CompareRequest"))));
+    assert_eq!(set(&fields[3]), properties(schema_of("CompareResponse")), "compare response fields");
+    assert_eq!(set(&fields[4]), properties(schema_of("BatchRequest")), "batch fields");
+    assert_eq!(set(&first_column(&text, "verdict")[0]), enum_set("Verdict"));
     let routes: BTreeSet<String> = document()["paths"].as_object().unwrap().keys().cloned().collect();
     assert_eq!(set(&first_column(&text, "route")[0]), routes);
     assert_eq!(
@@ -784,7 +817,7 @@ fn no_module_imports_one_that_imports_it_back() {
         }
     }
     assert!(
-        edges.contains(&("api::interval".to_string(), "engine::driver".to_string())),
+        edges.contains(&("api::job".to_string(), "engine::driver".to_string())),
         "the scan sees imports: {edges:?}"
     );
     for (a, b) in &edges {

@@ -11,7 +11,7 @@ use bandsaw::engine::statistic::StatisticSpec;
 use bandsaw::telemetry::Metrics;
 use serde_json::{json, Value};
 
-use crate::common::{invalid, pointers, problem, rule_at, without_timing, TestApp};
+use crate::common::{invalid, message_at, pointers, problem, rule_at, without_timing, TestApp};
 
 /// Invented page load times (ms) of 200 visits.
 fn page_loads(n: usize) -> Vec<f64> {
@@ -115,19 +115,25 @@ async fn batch_answers_each_job_in_order_and_a_bad_job_does_not_sink_it() {
         {"kind": "compare", "baseline": [1, 2], "candidate": [2, 3]},
         {"kind": "interval", "data": {"values": [1, 2], "counts": [5, 5]}, "statistic": "median", "seed": 3},
         {"data": [1, 2]},
-        7
+        7,
+        {"kind": "median", "data": [1, 2]}
     ]});
     let (s, _, v) = app.post("/v1/batch", &body).await;
     assert_eq!(s, 200, "{v}");
     let r = v["results"].as_array().unwrap();
-    assert_eq!(r.len(), 6);
+    assert_eq!(r.len(), 7);
     assert_eq!(r[0]["ok"]["n"], 6);
     assert_eq!(r[1]["error"]["status"], 422);
     assert_eq!(pointers(&r[1]["error"]), vec!["/jobs/1/data/1"]);
-    assert_eq!(pointers(&r[2]["error"]), vec!["/jobs/2/kind"]);
+    // Two runs a side cannot decide anything (floor 2 / C(4, 2) = 1/3).
+    assert_eq!(r[2]["ok"]["verdict"], "inconclusive", "{}", r[2]);
+    let codes = r[2]["ok"]["contrast"]["diagnostics"]["warnings"].as_array().unwrap();
+    assert!(codes.iter().any(|w| w["code"] == "too_few_runs"), "{}", r[2]);
     assert_eq!(r[3]["ok"]["estimate"], 1.5);
     assert_eq!(pointers(&r[4]["error"]), vec!["/jobs/4/kind"]);
     assert_eq!(pointers(&r[5]["error"]), vec!["/jobs/5"]);
+    assert_eq!(pointers(&r[6]["error"]), vec!["/jobs/6/kind"]);
+    assert!(message_at(&r[6]["error"], "/jobs/6/kind").contains("\"compare\""), "{}", r[6]);
     assert_eq!(v["multiplicity"], "none");
     // The same job alone gives the same answer as inside the batch (apart from timing).
     let (_, _, alone) = app.post("/v1/interval", &json!({"data": [1, 2, 3, 4, 5, 6], "seed": 1})).await;

@@ -191,6 +191,7 @@ fn mouse_data_difference_of_means_has_the_exact_standard_error_26_908() {
         baseline: Resampled::iid(Sample::column(MOUSE_CONTROL.to_vec()).unwrap()),
         candidate: Resampled::iid(Sample::column(MOUSE_TREATMENT.to_vec()).unwrap()),
         contrast: bandsaw::engine::job::Contrast::Difference,
+        paired: false,
     };
     let mut j = Job::new(samples, stat("mean"), 19);
     j.resamples = Resamples::Fixed(100_000);
@@ -221,6 +222,7 @@ fn two_samples_replay_bit_for_bit_and_each_sample_has_its_own_streams() {
                 baseline: Resampled::iid(Sample::column(MOUSE_CONTROL.to_vec()).unwrap()),
                 candidate: Resampled::iid(Sample::column(MOUSE_TREATMENT.to_vec()).unwrap()),
                 contrast: bandsaw::engine::job::Contrast::Ratio,
+                paired: false,
             },
             stat("median"),
             seed,
@@ -237,6 +239,7 @@ fn two_samples_replay_bit_for_bit_and_each_sample_has_its_own_streams() {
             baseline: Resampled::iid(Sample::column(MOUSE_CONTROL.to_vec()).unwrap()),
             candidate: Resampled::iid(Sample::column(MOUSE_CONTROL.to_vec()).unwrap()),
             contrast: bandsaw::engine::job::Contrast::Ratio,
+            paired: false,
         },
         stat("mean"),
         5,

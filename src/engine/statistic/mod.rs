@@ -320,6 +320,49 @@ impl Estimator {
         let units = self.units();
         self.evaluate(units.base, &mut Scratch::with_units(units.base.len()))
     }
+
+    /// The unit of every row in the order sent, when the units are rows (raw rows of a column,
+    /// or the rows of named columns); `None` for aggregated data, which has no rows.
+    pub fn unit_of_row(&self) -> Option<Vec<u32>> {
+        match self {
+            Estimator::Column { data, .. } if data.raw => Some(data.unit_of_row.clone()),
+            Estimator::Column { .. } => None,
+            Estimator::Table { data, .. } => Some((0..data.rows as u32).collect()),
+        }
+    }
+}
+
+/// Anything evaluated on weights over units: a statistic bound to its sample, or a contrast of
+/// two statistics bound to the rows their samples share. The jackknife and the nested bootstrap
+/// work on it.
+pub trait Weighted: Sync {
+    /// The units a resample puts weight on.
+    fn units(&self) -> Units<'_>;
+    /// The value on weighted units.
+    fn evaluate(&self, w: &[f64], scratch: &mut Scratch) -> f64;
+    /// Closed-form leave-one-out values, where there is a closed form.
+    fn jackknife_closed(&self) -> Option<Vec<f64>> {
+        None
+    }
+    /// An analytic standard error on weighted units, where there is one.
+    fn analytic_se(&self, _w: &[f64]) -> Option<f64> {
+        None
+    }
+}
+
+impl Weighted for Estimator {
+    fn units(&self) -> Units<'_> {
+        Estimator::units(self)
+    }
+    fn evaluate(&self, w: &[f64], scratch: &mut Scratch) -> f64 {
+        Estimator::evaluate(self, w, scratch)
+    }
+    fn jackknife_closed(&self) -> Option<Vec<f64>> {
+        Estimator::jackknife_closed(self)
+    }
+    fn analytic_se(&self, w: &[f64]) -> Option<f64> {
+        Estimator::analytic_se(self, w)
+    }
 }
 
 /// Per-worker scratch space, so that evaluating a statistic on a replicate never allocates.
@@ -327,6 +370,8 @@ impl Estimator {
 pub struct Scratch {
     pub a: Vec<f64>,
     pub b: Vec<f64>,
+    /// The two samples' weights of a paired resample.
+    pub pair: [Vec<f64>; 2],
 }
 
 impl Scratch {
@@ -334,6 +379,7 @@ impl Scratch {
         Scratch {
             a: Vec::with_capacity(units),
             b: Vec::with_capacity(units),
+            pair: [Vec::new(), Vec::new()],
         }
     }
 }

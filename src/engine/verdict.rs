@@ -1,0 +1,314 @@
+//! The verdict of a comparison: did the candidate get worse, better, stay the same within a
+//! tolerance, or can the data not tell yet?
+//!
+//! The verdict is read from one interval of the contrast (candidate against baseline) against
+//! the tolerance band, the set of contrasts that count as no change: `regression` when the whole
+//! interval lies beyond the band on the worse side, `improvement` on the better side,
+//! `equivalent` when the whole interval lies inside the band (an equivalence test in the trade's
+//! sense: an interval of level L inside the band rejects both one-sided "beyond the band"
+//! hypotheses at (1 − L)/2 each; Schuirmann, D. J. (1987), J. Pharmacokinetics and
+//! Biopharmaceutics 15(6)), and `inconclusive` otherwise.
+//!
+//! A p-value comes from inverting the interval (Davison & Hinkley 1997, §4.4 and §5.3): the
+//! smallest α at which the (1 − α) interval lies wholly outside the band. A family of comparisons
+//! adjusts the level each verdict is read at from these ([`crate::engine::family`]).
+
+use statrs::function::factorial::binomial;
+
+use crate::engine::distribution::normal_dist;
+use crate::engine::interval::Method;
+use crate::engine::job::Contrast;
+use crate::engine::summary::Reader;
+
+crate::wire_enum! {
+    /// Which direction of the statistic is better.
+    pub enum Better default Lower {
+        /// Lower is better: timings, latency, error rates.
+        Lower = "lower",
+        /// Higher is better: throughput, conversion.
+        Higher = "higher",
+    }
+}
+
+crate::wire_enum! {
+    /// What a comparison decided.
+    pub enum Verdict {
+        /// The interval lies wholly beyond the tolerance band on the worse side.
+        Regression = "regression",
+        /// The interval lies wholly beyond the tolerance band on the better side.
+        Improvement = "improvement",
+        /// The interval lies wholly inside the tolerance band.
+        Equivalent = "equivalent",
+        /// The interval overlaps an edge of the band, or there are too few runs to decide.
+        Inconclusive = "inconclusive",
+    }
+}
+
+crate::bounded_number! {
+    /// The change that still counts as no change: relative for a ratio (0.02 = 2 %: ratios
+    /// from 1/1.02 to 1.02), in data units for a difference. 0 or more.
+    pub struct Tolerance where 0.0 <= x <= 1e75, "a tolerance, 0 or more";
+}
+
+/// What is compared, and what counts as no change.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Comparison {
+    pub contrast: Contrast,
+    pub better: Better,
+    pub tolerance: f64,
+}
+
+/// Where an interval lies against the tolerance band.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Side {
+    Inside,
+    Worse,
+    Better,
+    Edge,
+}
+
+impl Comparison {
+    /// The contrasts that count as no change: [−t, t] for a difference, [1/(1 + t), 1 + t] for
+    /// a ratio (symmetric on the log scale, so a slowdown and a speedup of the same factor
+    /// count alike).
+    pub fn band(&self) -> (f64, f64) {
+        let t = self.tolerance;
+        match self.contrast {
+            Contrast::Difference => (-t, t),
+            Contrast::Ratio => (1.0 / (1.0 + t), 1.0 + t),
+        }
+    }
+
+    fn side(&self, lower: f64, upper: f64) -> Side {
+        let (lo, hi) = self.band();
+        let (above, below) = (lower > hi, upper < lo);
+        match (above, below, self.better) {
+            (true, _, Better::Lower) | (_, true, Better::Higher) => Side::Worse,
+            (true, _, Better::Higher) | (_, true, Better::Lower) => Side::Better,
+            _ if lower >= lo && upper <= hi => Side::Inside,
+            _ => Side::Edge,
+        }
+    }
+}
+
+/// The smallest p-value an inversion reports: below it the search stops.
+pub const MIN_P_VALUE: f64 = 1e-12;
+
+/// The smallest α for which `holds` is true of the (1 − α) interval of `method`: intervals
+/// widen with their level, so `holds` is true of every α down to some α*. Bisected on log α,
+/// so that a small p-value has as many significant digits as a large one.
+fn invert(r: &Reader, method: Method, holds: impl Fn(f64, f64) -> bool) -> f64 {
+    let at = |alpha: f64| {
+        let e = r.interval(method, 1.0 - alpha);
+        holds(e.lower, e.upper)
+    };
+    // The largest α below 1 whose level 1 − α is representable apart from 0.
+    let widest = 1.0 - 1e-12;
+    if !at(widest) {
+        return 1.0;
+    }
+    if at(MIN_P_VALUE) {
+        return MIN_P_VALUE;
+    }
+    let (mut lo, mut hi) = (MIN_P_VALUE.ln(), widest.ln());
+    for _ in 0..60 {
+        let mid = 0.5 * (lo + hi);
+        if at(mid.exp()) {
+            hi = mid;
+        } else {
+            lo = mid;
+        }
+    }
+    hi.exp()
+}
+
+/// The p-value of a change: the smallest α at which the (1 − α) interval lies wholly outside
+/// the tolerance band.
+pub fn p_change(r: &Reader, method: Method, c: &Comparison) -> f64 {
+    invert(r, method, |lower, upper| matches!(c.side(lower, upper), Side::Worse | Side::Better))
+}
+
+/// The p-value of equivalence: the smallest α at which the (1 − α) interval lies wholly inside
+/// the tolerance band.
+pub fn p_equivalence(r: &Reader, method: Method, c: &Comparison) -> f64 {
+    invert(r, method, |lower, upper| c.side(lower, upper) == Side::Inside)
+}
+
+/// How many observations each sample has, and whether they are pairs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Sizes {
+    pub baseline: u64,
+    pub candidate: u64,
+    pub paired: bool,
+}
+
+impl Sizes {
+    /// The smallest two-sided p-value any distribution-free comparison of these runs can reach:
+    /// the most extreme of the C(n₁ + n₂, n₁) arrangements of two samples (the rank-sum test's
+    /// floor; Mann, H. B. & Whitney, D. R. (1947), Ann. Math. Statist. 18(1)), or the sign test's
+    /// 2·2⁻ⁿ for n pairs (common practice). With fewer runs than this allows, the bootstrap's
+    /// interval is too short-tailed to trust, and no verdict is given.
+    pub fn floor(&self) -> f64 {
+        if self.paired {
+            (2.0 * 0.5_f64.powi(self.baseline.min(i32::MAX as u64) as i32)).min(1.0)
+        } else {
+            (2.0 / binomial(self.baseline + self.candidate, self.baseline)).min(1.0)
+        }
+    }
+
+    /// The runs per side now (the larger side).
+    fn per_side(&self) -> u64 {
+        self.baseline.max(self.candidate)
+    }
+}
+
+/// The level a verdict is read at, and what may be claimed there (a family's step-down may
+/// forbid a change that the job's own interval would show).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Reading {
+    pub change_level: f64,
+    pub change_allowed: bool,
+    pub equivalence_level: f64,
+    /// In a corrected family, the level at which the intervals of every comparison hold
+    /// together (Bonferroni's 1 − α/m).
+    pub simultaneous_level: Option<f64>,
+}
+
+impl Reading {
+    /// One comparison on its own, read at its level.
+    pub fn alone(level: f64) -> Reading {
+        Reading {
+            change_level: level,
+            change_allowed: true,
+            equivalence_level: level,
+            simultaneous_level: None,
+        }
+    }
+}
+
+/// A verdict with everything it was read from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Decision {
+    pub verdict: Verdict,
+    pub method: Method,
+    /// The interval the verdict was read from, and its level.
+    pub level: f64,
+    pub lower: f64,
+    pub upper: f64,
+    pub band: (f64, f64),
+    pub p_value: f64,
+    pub equivalence_p_value: f64,
+    /// The smallest p-value a distribution-free comparison of the runs can reach.
+    pub floor: f64,
+    /// About how many runs per side would narrow the interval to the band's width.
+    pub runs_needed: Option<u64>,
+    pub reason: String,
+}
+
+/// What a verdict is decided from.
+pub struct Evidence<'a> {
+    pub reader: &'a Reader,
+    pub method: Method,
+    pub comparison: Comparison,
+    pub sizes: Sizes,
+    /// The statistic's name, for the reason.
+    pub statistic: &'a str,
+}
+
+/// Decide a comparison at a reading.
+pub fn decide(e: &Evidence, reading: Reading) -> Decision {
+    let c = &e.comparison;
+    let floor = e.sizes.floor();
+    let change = e.reader.interval(e.method, reading.change_level);
+    let equal = e.reader.interval(e.method, reading.equivalence_level);
+    let enough = |level: f64| floor <= 1.0 - level;
+    let (verdict, level, iv) = match c.side(change.lower, change.upper) {
+        Side::Worse if reading.change_allowed && enough(reading.change_level) => (Verdict::Regression, reading.change_level, change),
+        Side::Better if reading.change_allowed && enough(reading.change_level) => (Verdict::Improvement, reading.change_level, change),
+        _ if c.side(equal.lower, equal.upper) == Side::Inside && enough(reading.equivalence_level) => {
+            (Verdict::Equivalent, reading.equivalence_level, equal)
+        }
+        _ => (Verdict::Inconclusive, reading.change_level, change),
+    };
+    let runs_needed = (verdict == Verdict::Inconclusive).then(|| runs_needed(e, level)).flatten();
+    let mut d = Decision {
+        verdict,
+        method: e.method,
+        level,
+        lower: iv.lower,
+        upper: iv.upper,
+        band: c.band(),
+        p_value: p_change(e.reader, e.method, c),
+        equivalence_p_value: p_equivalence(e.reader, e.method, c),
+        floor,
+        runs_needed,
+        reason: String::new(),
+    };
+    d.reason = reason(e, &d);
+    d
+}
+
+/// About how many runs per side would make the interval at `level` as narrow as the tolerance
+/// (z·ŝe(n′) = t with ŝe shrinking like 1/√n), enough to tell a change of twice the tolerance
+/// from none; `None` without a tolerance, or when more runs are not what is missing.
+fn runs_needed(e: &Evidence, level: f64) -> Option<u64> {
+    let t = e.comparison.tolerance;
+    let se = e.reader.standard_error;
+    if t <= 0.0 || se <= 0.0 {
+        return None;
+    }
+    let z = normal_dist::upper_quantile((1.0 - level) / 2.0);
+    let now = e.sizes.per_side().max(2) as f64;
+    let needed = (now * (z * se / t).powi(2)).ceil();
+    (needed > now && needed.is_finite()).then_some(needed.min(1e12) as u64)
+}
+
+/// A number in a sentence: four significant digits, without trailing zeros.
+pub fn num(x: f64) -> String {
+    if x == 0.0 || !x.is_finite() {
+        return x.to_string();
+    }
+    let digits = (3 - x.abs().log10().floor() as i32).clamp(0, 12) as usize;
+    let s = format!("{x:.digits$}");
+    match s.contains('.') {
+        true => s.trim_end_matches('0').trim_end_matches('.').to_string(),
+        false => s,
+    }
+}
+
+/// The verdict in words, for a person reading a CI log.
+fn reason(e: &Evidence, d: &Decision) -> String {
+    let name = e.statistic.replace('_', " ");
+    let what = match e.comparison.contrast {
+        Contrast::Difference => format!("the candidate's {name} minus the baseline's"),
+        Contrast::Ratio => format!("the candidate's {name} over the baseline's"),
+    };
+    let interval = format!(
+        "its {}% {} interval [{}, {}]",
+        num(100.0 * d.level),
+        d.method,
+        num(d.lower),
+        num(d.upper)
+    );
+    let band = format!("the tolerance band [{}, {}]", num(d.band.0), num(d.band.1));
+    let better = format!("{} is better", e.comparison.better);
+    let head = format!("{what} is {}; {interval}", num(e.reader.estimate));
+    match d.verdict {
+        Verdict::Regression => format!("{head} lies wholly beyond {band} on the worse side ({better})."),
+        Verdict::Improvement => format!("{head} lies wholly beyond {band} on the better side ({better})."),
+        Verdict::Equivalent => format!("{head} lies wholly inside {band}: any change is within the tolerance."),
+        Verdict::Inconclusive if d.floor > 1.0 - d.level => format!(
+            "{head}, but with {} and {} runs no arrangement of the runs is rarer than {} (two-sided), so the data cannot decide at {}%: gather more runs.",
+            e.sizes.baseline,
+            e.sizes.candidate,
+            num(d.floor),
+            num(100.0 * d.level)
+        ),
+        Verdict::Inconclusive => {
+            let more = d.runs_needed.map_or(String::new(), |n| {
+                format!(" About {n} runs per side would narrow the interval to the tolerance at this noise.")
+            });
+            format!("{head} overlaps {band}, so the data cannot tell yet.{more}")
+        }
+    }
+}
