@@ -65,7 +65,9 @@ fn job_schema(request: RefOr<Schema>, kind: JobKind) -> RefOr<Schema> {
         tag.description = Some(format!("\"{kind}\": {}", kind.doc()));
         o.properties.shift_insert(0, "kind".into(), RefOr::T(Schema::Object(tag)));
         o.required.insert(0, "kind".into());
-        o.description = Some(format!("A `{kind}` job of a batch: the fields of `POST /v1/{kind}` with `\"kind\": \"{kind}\"`."));
+        o.description = Some(format!(
+            "A `{kind}` job of a batch: the fields of `POST /v1/{kind}` with `\"kind\": \"{kind}\"`."
+        ));
     }
     schema
 }
@@ -86,7 +88,10 @@ impl PartialSchema for Jobs {
 
 impl ToSchema for Jobs {
     fn schemas(schemas: &mut Vec<(String, RefOr<Schema>)>) {
-        schemas.push(("IntervalJob".into(), job_schema(super::schema::flattened::<IntervalRequest>(), JobKind::Interval)));
+        schemas.push((
+            "IntervalJob".into(),
+            job_schema(super::schema::flattened::<IntervalRequest>(), JobKind::Interval),
+        ));
         schemas.push(("CompareJob".into(), job_schema(compare::request_schema(), JobKind::Compare)));
     }
 }
@@ -131,7 +136,9 @@ fn ok_schema() -> RefOr<Schema> {
     OneOfBuilder::new()
         .item(utoipa::openapi::Ref::from_schema_name(IntervalResponse::name()))
         .item(utoipa::openapi::Ref::from_schema_name(CompareResponse::name()))
-        .description(Some("The job's result: an `IntervalResponse` for an `interval` job, a `CompareResponse` (which has `verdict`) for a `compare` job."))
+        .description(Some(
+            "The job's result: an `IntervalResponse` for an `interval` job, a `CompareResponse` (which has `verdict`) for a `compare` job.",
+        ))
         .into()
 }
 
@@ -226,10 +233,12 @@ pub fn compute(body: &[u8], limits: &Limits, max_jobs: usize, cancel: Arc<Atomic
         .into_iter()
         .zip(readings)
         .enumerate()
-        .map(|(i, (r, reading))| match r.and_then(|ran| respond(ran, reading, started).map_err(|e| prefixed(e, i))) {
-            Ok(ok) => BatchResult::Ok { ok },
-            Err(error) => BatchResult::Error { error },
-        })
+        .map(
+            |(i, (r, reading))| match r.and_then(|ran| respond(ran, reading, started).map_err(|e| prefixed(e, i))) {
+                Ok(ok) => BatchResult::Ok { ok },
+                Err(error) => BatchResult::Error { error },
+            },
+        )
         .collect();
     job::to_json(&BatchResponse {
         results,
@@ -260,8 +269,6 @@ fn family_readings(ran: &[Result<Ran, Problem>], multiplicity: Multiplicity, fam
 fn respond(ran: Ran, reading: Option<Reading>, started: Instant) -> Result<Value, Problem> {
     match reading {
         None => interval::respond(ran, started),
-        Some(reading) => {
-            job::to_json(&compare::response(ran, reading, started))
-        }
+        Some(reading) => job::to_json(&compare::response(ran, reading, started)),
     }
 }

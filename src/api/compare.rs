@@ -119,7 +119,13 @@ pub fn compute(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: I
 }
 
 /// Decode a comparison and check it against every rule; see [`super::interval::prepare`].
-pub fn prepare(json: &Value, also: &[&str], limits: &Limits, started: Instant, deadline_cap: Option<Instant>) -> Result<PreparedJob, Problem> {
+pub fn prepare(
+    json: &Value,
+    also: &[&str],
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<PreparedJob, Problem> {
     let raw = json.as_object().expect("an object");
     let mut errs = Errors::default();
     let req = CompareRequest::decode(raw, "", also, &mut errs);

@@ -89,7 +89,13 @@ pub fn quote_non_finite_literals(text: &str) -> Option<String> {
 }
 
 /// Compute an interval response from a request body.
-pub fn compute(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: Instant, replicate_cap: Option<u64>) -> Result<Value, Problem> {
+pub fn compute(
+    body: &[u8],
+    limits: &Limits,
+    cancel: Arc<AtomicBool>,
+    started: Instant,
+    replicate_cap: Option<u64>,
+) -> Result<Value, Problem> {
     let json = parse_json(body)?;
     let job = prepare(&json, &[], limits, started, None)?;
     respond(job::run(job, cancel, replicate_cap)?, started)
@@ -97,7 +103,13 @@ pub fn compute(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: I
 
 /// Decode an interval request and check it against every rule; `also` lists fields allowed
 /// besides the request's own (a batch job's `kind`), `deadline_cap` bounds the job's deadline.
-pub fn prepare(json: &Value, also: &[&str], limits: &Limits, started: Instant, deadline_cap: Option<Instant>) -> Result<PreparedJob, Problem> {
+pub fn prepare(
+    json: &Value,
+    also: &[&str],
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<PreparedJob, Problem> {
     let raw = json.as_object().expect("an object");
     let mut errs = Errors::default();
     let req = IntervalRequest::decode(raw, "", also, &mut errs);

@@ -93,7 +93,9 @@ fn replayed(t: &str, asked: &Asked, limits: &Limits) -> Result<(Params, Option<C
         )),
     })?;
     if body.comparing.is_some() != asked.comparing.is_some() {
-        return Err(refuse("was issued for the other route (an interval, or a comparison); send it where it came from".into()));
+        return Err(refuse(
+            "was issued for the other route (an interval, or a comparison); send it where it came from".into(),
+        ));
     }
     let digests: Vec<String> = asked.samples.iter().map(|(s, _, _)| token::hex(&s.digest())).collect();
     if body.data != digests {
@@ -103,7 +105,9 @@ fn replayed(t: &str, asked: &Asked, limits: &Limits) -> Result<(Params, Option<C
     // (its parameters' own ranges were checked as they were read).
     let drawn_ok = (ResampleCount::MIN..=limits.max_resamples).contains(&body.drawn);
     if !request::check_params(&body.params, limits).is_empty() || body.seed > MAX_SEED || !drawn_ok {
-        return Err(refuse("this token is outside this server's limits; send the parameters instead".into()));
+        return Err(refuse(
+            "this token is outside this server's limits; send the parameters instead".into(),
+        ));
     }
     let replay = Replay {
         drawn: body.drawn,
@@ -132,7 +136,13 @@ fn samples(asked: &Asked, params: &Params, comparing: Option<Comparing>) -> Samp
 /// Lay a checked request's job out (replaying its token), with `params` in place of the
 /// request's own when given (a comparison's default resamples). `deadline_cap` bounds the job's
 /// deadline (a batch's).
-pub fn prepare(asked: &Asked, with: Option<Params>, limits: &Limits, started: Instant, deadline_cap: Option<Instant>) -> Result<PreparedJob, Problem> {
+pub fn prepare(
+    asked: &Asked,
+    with: Option<Params>,
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<PreparedJob, Problem> {
     let r = asked.resampling;
     let (params, comparing, seed, replay) = match &r.token {
         Some(t) => {
@@ -144,7 +154,10 @@ pub fn prepare(asked: &Asked, with: Option<Params>, limits: &Limits, started: In
             (with.unwrap_or_else(|| r.params()), asked.comparing, seed, None)
         }
     };
-    let own_ms = r.time_limit_ms.map_or(limits.default_time_limit_ms, |t| t.get()).min(limits.max_time_limit_ms);
+    let own_ms = r
+        .time_limit_ms
+        .map_or(limits.default_time_limit_ms, |t| t.get())
+        .min(limits.max_time_limit_ms);
     let own = started + Duration::from_millis(own_ms);
     let deadline = deadline_cap.map_or(own, |cap| cap.min(own));
     let job = request::job(&params, samples(asked, &params, comparing), seed, r.on_time_limit, limits, replay);

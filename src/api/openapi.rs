@@ -26,15 +26,15 @@ use super::rules::Rule;
 use super::schema::{flattened, merged};
 use super::Health;
 use crate::engine::diagnostics::WarningCode;
+use crate::engine::family::Multiplicity;
 use crate::engine::interval::Method;
 use crate::engine::jackknife::JackknifeKind;
-use crate::engine::family::Multiplicity;
 use crate::engine::job::{Contrast, Include};
-use crate::engine::verdict::{Better, Verdict};
 use crate::engine::kernel::SeSource;
 use crate::engine::plan::{OnTimeLimit, Stop};
 use crate::engine::statistic::association::CorrelationKind;
 use crate::engine::statistic::spread::Divisor;
+use crate::engine::verdict::{Better, Verdict};
 
 /// The document.
 pub fn document() -> utoipa::openapi::OpenApi {

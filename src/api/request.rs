@@ -15,12 +15,12 @@ use super::rules::Rule;
 use crate::config::Limits;
 use crate::engine::data::Sample;
 use crate::engine::job::{Contrast, InnerResamples, Job, Samples};
-use crate::engine::verdict::{Better, Comparison, Tolerance};
 use crate::engine::plan::{self, McTarget};
 use crate::engine::plan::{OnTimeLimit, Stop};
 use crate::engine::rng::Seed;
 use crate::engine::scheme::SchemeSpec;
 use crate::engine::statistic::StatisticSpec;
+use crate::engine::verdict::{Better, Comparison, Tolerance};
 
 crate::whole_number! {
     /// Wall-clock budget in milliseconds, 1 or more, capped by the server's

@@ -108,7 +108,12 @@ pub fn flattened<T: ToSchema>() -> RefOr<Schema> {
 fn flattened_parts(schema: &RefOr<Schema>) -> Option<Vec<Object>> {
     match schema {
         RefOr::T(Schema::Object(o)) => Some(vec![o.clone()]),
-        RefOr::T(Schema::AllOf(all)) => all.items.iter().map(flattened_parts).collect::<Option<Vec<_>>>().map(|v| v.concat()),
+        RefOr::T(Schema::AllOf(all)) => all
+            .items
+            .iter()
+            .map(flattened_parts)
+            .collect::<Option<Vec<_>>>()
+            .map(|v| v.concat()),
         _ => None,
     }
 }

@@ -7,8 +7,8 @@ use crate::engine::interval::Method;
 use crate::engine::jackknife;
 use crate::engine::job::Job;
 use crate::engine::kernel::Target;
-use crate::engine::statistic::Weighted;
 use crate::engine::plan::{Resamples, AUTO_START};
+use crate::engine::statistic::Weighted;
 
 /// The estimated work of a job, and how many resamples it may draw within its limits.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -44,7 +44,11 @@ fn jackknife_work(job: &Job, target: &Target) -> f64 {
         Target::Paired { pair, .. } => 2.0 * cost * jackknife::cost_in_units(false, pair.units().base.len(), true),
         _ => {
             let closed = job.statistic.has_closed_jackknife();
-            let per: f64 = target.estimators().iter().map(|e| jackknife::cost_in_units(closed, e.units().base.len(), e.units().raw)).sum();
+            let per: f64 = target
+                .estimators()
+                .iter()
+                .map(|e| jackknife::cost_in_units(closed, e.units().base.len(), e.units().raw))
+                .sum();
             cost * per
         }
     }

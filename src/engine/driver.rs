@@ -12,9 +12,9 @@ use crate::engine::interval::{bca, Method};
 use crate::engine::jackknife::{self, JackknifeKind};
 use crate::engine::job::{Contrast, Include, Job, Resampled, Samples};
 use crate::engine::kernel::{contrast_se, Arm, Kernel, Pair, SeSource, Target};
-use crate::engine::statistic::{Estimator, Weighted};
 use crate::engine::plan::{self, Ended, Plan, Resamples, Source, Stop};
 use crate::engine::scheme::SchemeError;
+use crate::engine::statistic::{Estimator, Weighted};
 use crate::engine::summary::{self, IntervalResult, Reader, Summary, SummaryInput};
 
 /// Which sample of a job a problem is about.
@@ -128,7 +128,10 @@ fn paired(job: &Job, baseline: &Resampled, candidate: &Resampled, contrast: Cont
     let (nb, nc) = (baseline.sample.rows(), candidate.sample.rows());
     let pair = Pair::new(b.estimator, c.estimator, contrast).ok_or_else(|| RunError::Data {
         which: Which::Candidate,
-        problems: vec![DataError::NotPaired { baseline: nb, candidate: nc }],
+        problems: vec![DataError::NotPaired {
+            baseline: nb,
+            candidate: nc,
+        }],
     })?;
     let units = pair.units();
     let rows = match job.resamples {
@@ -336,7 +339,9 @@ impl Prepared {
                 baseline,
                 candidate,
                 contrast,
-            } => self.jackknife_of_two(&baseline.estimator, &candidate.estimator, *contrast, &stop).map_err(stopped),
+            } => self
+                .jackknife_of_two(&baseline.estimator, &candidate.estimator, *contrast, &stop)
+                .map_err(stopped),
             Target::Paired { pair, .. } => {
                 let j = jackknife::jackknife(pair, &stop).map_err(stopped)?;
                 Ok(j.map(|j| JackknifeFacts {
@@ -365,7 +370,11 @@ impl Prepared {
         let vc: Vec<f64> = jc.values.iter().map(|c| contrast.of(*c, eb)).collect();
         let samples = [(&vb[..], &jb.multiplicity[..]), (&vc[..], &jc.multiplicity[..])];
         // The coarser of the two ways stands for both.
-        let (kind, groups) = if jb.kind == JackknifeKind::Grouped { (jb.kind, jb.groups) } else { (jc.kind, jc.groups) };
+        let (kind, groups) = if jb.kind == JackknifeKind::Grouped {
+            (jb.kind, jb.groups)
+        } else {
+            (jc.kind, jc.groups)
+        };
         Ok(Some(JackknifeFacts {
             acceleration: bca::acceleration_of_samples(&samples),
             kind,
@@ -459,7 +468,12 @@ impl Prepared {
     /// What the warnings are decided from.
     fn facts<'a>(&'a self, reps: &Replicates, s: &'a Summary, no_acceleration: bool) -> Facts<'a> {
         let job = &self.job;
-        let n = self.target.estimators().iter().map(|e| e.units().total).fold(f64::INFINITY, f64::min);
+        let n = self
+            .target
+            .estimators()
+            .iter()
+            .map(|e| e.units().total)
+            .fold(f64::INFINITY, f64::min);
         let independent = self.target.resamplers().iter().all(|r| r.independent_rows());
         let lag1 = self
             .samples()

@@ -71,7 +71,11 @@ mod tests {
         let p = [0.03, 0.001, 0.014, 0.2];
         let r = readings(Multiplicity::Holm, 0.95, &[0.95; 4], &p);
         let allowed: Vec<bool> = r.iter().map(|x| x.change_allowed).collect();
-        assert_eq!(allowed, [false, true, true, false], "0.001 ≤ 0.0125, 0.014 ≤ 0.0167, 0.03 > 0.025 stops");
+        assert_eq!(
+            allowed,
+            [false, true, true, false],
+            "0.001 ≤ 0.0125, 0.014 ≤ 0.0167, 0.03 > 0.025 stops"
+        );
         assert!((r[1].change_level - (1.0 - 0.0125)).abs() < 1e-12);
         assert!((r[2].change_level - (1.0 - 0.05 / 3.0)).abs() < 1e-12);
         // Bonferroni claims fewer: only p ≤ 0.0125.

@@ -93,9 +93,16 @@ impl Weighted for Pair {
 pub enum Target {
     One(Arm),
     /// Two samples, each from its own streams.
-    Two { baseline: Arm, candidate: Arm, contrast: Contrast },
+    Two {
+        baseline: Arm,
+        candidate: Arm,
+        contrast: Contrast,
+    },
     /// Two samples whose rows are resampled together, from one stream.
-    Paired { pair: Pair, rows: Box<dyn Resampler> },
+    Paired {
+        pair: Pair,
+        rows: Box<dyn Resampler>,
+    },
 }
 
 impl Target {
@@ -179,8 +186,10 @@ impl Kernel<'_> {
                     Some(_) => (i / per_baseline, i % per_baseline),
                     None => (i, i),
                 };
-                let (b, se_b, p_b) = self.part_replicate(&baseline.estimator, baseline.resampler.as_ref(), baseline.stream, ib, wk, stop)?;
-                let (c, se_c, p_c) = self.part_replicate(&candidate.estimator, candidate.resampler.as_ref(), candidate.stream, ic, wk, stop)?;
+                let (b, se_b, p_b) =
+                    self.part_replicate(&baseline.estimator, baseline.resampler.as_ref(), baseline.stream, ib, wk, stop)?;
+                let (c, se_c, p_c) =
+                    self.part_replicate(&candidate.estimator, candidate.resampler.as_ref(), candidate.stream, ic, wk, stop)?;
                 Some(Replicate {
                     value: contrast.of(c, b),
                     se: contrast_se(*contrast, (c, se_c), (b, se_b)),

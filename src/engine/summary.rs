@@ -139,7 +139,11 @@ pub fn summarize(input: &SummaryInput) -> Result<Summary, NoDefinedReplicates> {
             endpoints: reader.interval(method, level),
         })
         .collect();
-    let bca_levels = intervals.iter().filter(|iv| iv.method == Method::Bca).filter_map(|iv| iv.endpoints.quantile_levels).collect();
+    let bca_levels = intervals
+        .iter()
+        .filter(|iv| iv.method == Method::Bca)
+        .filter_map(|iv| iv.endpoints.quantile_levels)
+        .collect();
     Ok(Summary {
         reader,
         kept,

@@ -657,12 +657,19 @@ fn enum_set(name: &str) -> BTreeSet<String> {
 fn docs_api_md_names_what_the_document_names() {
     let text = std::fs::read_to_string(API_MD).expect("docs/api.md");
     let fields = first_column(&text, "field");
-    assert_eq!(fields.len(), 5, "five field tables: interval request and response, compare request and response, batch");
+    assert_eq!(
+        fields.len(),
+        5,
+        "five field tables: interval request and response, compare request and response, batch"
+    );
     assert_eq!(set(&fields[0]), properties(schema_of("IntervalRequest")), "interval request fields");
     assert_eq!(set(&fields[1]), properties(schema_of("IntervalResponse")), "response fields");
     // A comparison's own fields; the page says it takes the interval's others but `data`.
     let interval_fields = properties(schema_of("IntervalRequest"));
-    let own: BTreeSet<String> = properties(schema_of("CompareRequest")).difference(&interval_fields).cloned().collect();
+    let own: BTreeSet<String> = properties(schema_of("CompareRequest"))
+        .difference(&interval_fields)
+        .cloned()
+        .collect();
     assert_eq!(set(&fields[2]), own, "compare request fields");
     let shared: BTreeSet<String> = interval_fields.iter().filter(|f| *f != "data").cloned().collect();
     assert!(shared.is_subset(&properties(schema_of("CompareRequest"))));
