@@ -175,9 +175,8 @@ pub struct DecisionJson {
     /// The contrasts that count as no change: [−t, t] for a difference, [1/(1 + t), 1 + t] for
     /// a ratio.
     pub tolerance_band: [f64; 2],
-    /// The smallest α at which the (1 − α) interval lies wholly outside the band (1: never;
-    /// the search stops at 1e-12). Below about 1/resamples it extrapolates the replicates'
-    /// tails: read `floor` beside it.
+    /// The smallest α at which the (1 − α) interval lies wholly outside the band (1: never),
+    /// but never below `floor`: what a family's correction orders the comparisons by.
     #[schema(minimum = 0, maximum = 1)]
     pub p_value: f64,
     /// The smallest α at which the (1 − α) interval lies wholly inside the band (1: never).
@@ -231,24 +230,27 @@ pub struct CompareResponse {
     pub decision: DecisionJson,
 }
 
-/// The p-value of a change of a comparison that ran, from its first method (what a family's
-/// correction orders the comparisons by).
-pub fn p_value(ran: &Ran) -> f64 {
+/// What a comparison that ran is decided from.
+fn evidence(ran: &Ran) -> Evidence<'_> {
     let comparing = ran.comparing.expect("a comparison");
-    verdict::p_change(&ran.outcome.reader, ran.params.methods.0[0], &comparing.comparison())
-}
-
-/// The decision of a comparison that ran, read at `reading`.
-pub fn decision(ran: &Ran, reading: Reading) -> Decision {
-    let comparing = ran.comparing.expect("a comparison");
-    let evidence = Evidence {
+    Evidence {
         reader: &ran.outcome.reader,
         method: ran.params.methods.0[0],
         comparison: comparing.comparison(),
         sizes: ran.comparison_sizes(),
         statistic: ran.params.statistic.name(),
-    };
-    verdict::decide(&evidence, reading)
+    }
+}
+
+/// The p-value of a change of a comparison that ran, from its first method (what a family's
+/// correction orders the comparisons by).
+pub fn p_value(ran: &Ran) -> f64 {
+    verdict::p_value(&evidence(ran))
+}
+
+/// The decision of a comparison that ran, read at `reading`.
+pub fn decision(ran: &Ran, reading: Reading) -> Decision {
+    verdict::decide(&evidence(ran), reading)
 }
 
 /// The response JSON of a comparison that ran, its verdict read at `reading`.

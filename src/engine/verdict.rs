@@ -215,6 +215,13 @@ pub struct Evidence<'a> {
     pub statistic: &'a str,
 }
 
+/// The p-value of a change of a comparison: the interval's inversion ([`p_change`]), but never
+/// below the floor of what a distribution-free comparison of its runs can reach (the bootstrap
+/// of a few runs has tails too short to claim more). What a family's correction orders by.
+pub fn p_value(e: &Evidence) -> f64 {
+    p_change(e.reader, e.method, &e.comparison).max(e.sizes.floor())
+}
+
 /// Decide a comparison at a reading.
 pub fn decide(e: &Evidence, reading: Reading) -> Decision {
     let c = &e.comparison;
@@ -238,7 +245,7 @@ pub fn decide(e: &Evidence, reading: Reading) -> Decision {
         lower: iv.lower,
         upper: iv.upper,
         band: c.band(),
-        p_value: p_change(e.reader, e.method, c),
+        p_value: p_value(e),
         equivalence_p_value: p_equivalence(e.reader, e.method, c),
         floor,
         runs_needed,
