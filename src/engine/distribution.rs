@@ -16,6 +16,19 @@ pub struct ReplicateDistribution {
     sd: f64,
 }
 
+/// √(Σ wᵢ(vᵢ − mean)² / divisor). When the plain sum of squares overflows (replicates near
+/// [`crate::engine::summary::MAX_REPLICATE`], a ratio whose denominator resampled to almost 0),
+/// the deviations are scaled by the largest first; otherwise the plain sum is kept, bit for bit.
+fn spread(values: &[f64], weight: impl Fn(usize) -> f64, mean: f64, divisor: f64) -> f64 {
+    let ss: f64 = values.iter().enumerate().map(|(i, v)| weight(i) * (v - mean) * (v - mean)).sum();
+    if ss.is_finite() {
+        return (ss / divisor).sqrt();
+    }
+    let scale = values.iter().map(|v| (v - mean).abs()).fold(0.0, f64::max);
+    let scaled: f64 = values.iter().enumerate().map(|(i, v)| weight(i) * ((v - mean) / scale).powi(2)).sum();
+    scale * (scaled / divisor).sqrt()
+}
+
 impl ReplicateDistribution {
     /// Equally weighted replicates (sampled). `sd` uses divisor B − 1.
     pub fn sampled(values: &[f64]) -> Self {
@@ -24,8 +37,11 @@ impl ReplicateDistribution {
         let b = sorted.len() as f64;
         // Sum in replicate order so the result does not depend on sorting.
         let mean = values.iter().sum::<f64>() / b;
-        let ss: f64 = values.iter().map(|v| (v - mean) * (v - mean)).sum();
-        let sd = if sorted.len() > 1 { (ss / (b - 1.0)).sqrt() } else { 0.0 };
+        let sd = if sorted.len() > 1 {
+            spread(values, |_| 1.0, mean, b - 1.0)
+        } else {
+            0.0
+        };
         ReplicateDistribution {
             sorted,
             cumulative: None,
@@ -41,7 +57,7 @@ impl ReplicateDistribution {
         idx.sort_by(|a, b| values[*a].total_cmp(&values[*b]));
         let total: f64 = probs.iter().sum();
         let mean = values.iter().zip(probs).map(|(v, p)| v * p).sum::<f64>() / total;
-        let var = values.iter().zip(probs).map(|(v, p)| p * (v - mean) * (v - mean)).sum::<f64>() / total;
+        let sd = spread(values, |i| probs[i], mean, total);
         let mut cum = 0.0;
         let mut cumulative = Vec::with_capacity(values.len());
         let mut sorted = Vec::with_capacity(values.len());
@@ -54,7 +70,7 @@ impl ReplicateDistribution {
             sorted,
             cumulative: Some(cumulative),
             mean,
-            sd: var.max(0.0).sqrt(),
+            sd,
         }
     }
 

@@ -170,6 +170,15 @@ pub fn prepare(job: Job) -> Result<Prepared, RunError> {
             paired: true,
         } => paired(&job, baseline, candidate, *contrast)?,
     };
+    // A ratio whose baseline is 0 (or nearly) has no estimate to interval.
+    if !crate::engine::summary::defined(estimate) {
+        return Err(RunError::Data {
+            which: Which::Baseline,
+            problems: vec![DataError::Undefined {
+                statistic: job.statistic.name(),
+            }],
+        });
+    }
     let enumerated = enumerated(&target, job.max_resamples)?;
     let work = cost::estimate(&job, &target, enumerated).map_err(|o| RunError::WorkLimit {
         needed: o.needed,

@@ -28,7 +28,7 @@ crate::wire_enum! {
 pub fn readings(multiplicity: Multiplicity, family_level: f64, own: &[f64], p: &[f64]) -> Vec<Reading> {
     let m = p.len().max(1) as f64;
     let alpha = 1.0 - family_level;
-    let bonferroni = 1.0 - alpha / m;
+    let bonferroni = share(family_level, m);
     match multiplicity {
         Multiplicity::None => own.iter().map(|l| Reading::alone(*l)).collect(),
         Multiplicity::Bonferroni => own
@@ -38,11 +38,17 @@ pub fn readings(multiplicity: Multiplicity, family_level: f64, own: &[f64], p: &
                 ..Reading::alone(bonferroni)
             })
             .collect(),
-        Multiplicity::Holm => holm(alpha, p, bonferroni),
+        Multiplicity::Holm => holm(alpha, family_level, p, bonferroni),
     }
 }
 
-fn holm(alpha: f64, p: &[f64], bonferroni: f64) -> Vec<Reading> {
+/// The level 1 − (1 − `family_level`)/d, written (d − 1 + `family_level`)/d so that it keeps
+/// every digit of a family level near 0 (where 1 − (1 − L) would round to 0).
+fn share(family_level: f64, d: f64) -> f64 {
+    (d - 1.0 + family_level) / d
+}
+
+fn holm(alpha: f64, family_level: f64, p: &[f64], bonferroni: f64) -> Vec<Reading> {
     let m = p.len();
     let mut order: Vec<usize> = (0..m).collect();
     order.sort_by(|a, b| p[*a].total_cmp(&p[*b]).then(a.cmp(b)));
@@ -52,7 +58,7 @@ fn holm(alpha: f64, p: &[f64], bonferroni: f64) -> Vec<Reading> {
         let threshold = alpha / (m - k) as f64;
         still = still && p[job] <= threshold;
         out[job] = Reading {
-            change_level: 1.0 - threshold,
+            change_level: share(family_level, (m - k) as f64),
             change_allowed: still,
             equivalence_level: bonferroni,
             simultaneous_level: Some(bonferroni),
@@ -84,5 +90,14 @@ mod tests {
         // Without a correction each keeps its own level.
         let n = readings(Multiplicity::None, 0.95, &[0.9, 0.95, 0.99, 0.8], &p);
         assert_eq!(n.iter().map(|x| x.change_level).collect::<Vec<_>>(), [0.9, 0.95, 0.99, 0.8]);
+    }
+
+    #[test]
+    fn a_family_level_near_0_keeps_its_digits() {
+        // 1 − (1 − 5e-324)/1 rounds to 0, which is no level; (1 − 1 + L)/1 is L itself.
+        for m in [Multiplicity::Bonferroni, Multiplicity::Holm] {
+            let r = readings(m, 5e-324, &[0.95], &[0.5]);
+            assert!(r[0].change_level > 0.0 && r[0].simultaneous_level.is_some_and(|l| l > 0.0), "{m}: {r:?}");
+        }
     }
 }

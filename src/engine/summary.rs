@@ -92,10 +92,20 @@ pub struct Summary {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct NoDefinedReplicates;
 
+/// The largest magnitude of a replicate that counts as defined. Data are bounded (1e75), but a
+/// ratio whose denominator resamples to almost 0 is not; beyond this, the sum of millions of
+/// replicates (their mean) could overflow, so such replicates count as undefined.
+pub const MAX_REPLICATE: f64 = 1e250;
+
+/// Whether a value counts as defined: finite and at most [`MAX_REPLICATE`] in magnitude.
+pub fn defined(v: f64) -> bool {
+    v.abs() <= MAX_REPLICATE
+}
+
 /// Summarise the replicates, leaving out undefined ones (stream order is kept among the rest).
 pub fn summarize(input: &SummaryInput) -> Result<Summary, NoDefinedReplicates> {
     let reps = input.replicates;
-    let kept: Vec<usize> = (0..reps.len()).filter(|&i| reps[i].value.is_finite()).collect();
+    let kept: Vec<usize> = (0..reps.len()).filter(|&i| defined(reps[i].value)).collect();
     if kept.is_empty() {
         return Err(NoDefinedReplicates);
     }
