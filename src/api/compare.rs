@@ -56,7 +56,7 @@ crate::wire_object! {
         contrast: Contrast = ratio,
         default
         /// The runs are pairs (interleaved on one machine), resampled together: both samples
-        /// one column of the same length.
+        /// rows given one by one (not aggregated), the same number on both sides.
         paired: bool = unpaired,
         default
         better: Better = Better::default,
@@ -179,7 +179,8 @@ pub struct DecisionJson {
     /// but never below `floor`: what a family's correction orders the comparisons by.
     #[schema(minimum = 0, maximum = 1)]
     pub p_value: f64,
-    /// The smallest α at which the (1 − α) interval lies wholly inside the band (1: never).
+    /// The smallest α at which the (1 − α) interval lies wholly inside the band (1: never),
+    /// but never below `floor`.
     #[schema(minimum = 0, maximum = 1)]
     pub equivalence_p_value: f64,
     /// The smallest two-sided p-value any distribution-free comparison of these runs can reach;

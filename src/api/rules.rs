@@ -22,7 +22,7 @@ crate::wire_enum! {
         BatchLimit = "batch_limit",
         /// Columns of equal length, one count per value, and at least 2 observations in all.
         SampleShape = "sample_shape",
-        /// Paired runs (`"paired": true`): baseline and candidate of the same length, pair i being the i-th of each.
+        /// Paired runs (`"paired": true`): baseline and candidate rows given one by one (not aggregated), the same number on both sides, pair i being the i-th row of each.
         PairedRows = "paired_rows",
         /// A statistic of one column needs an array or values with counts; a statistic of named columns needs `columns`.
         StatisticShape = "statistic_shape",

@@ -25,7 +25,11 @@ fn spread(values: &[f64], weight: impl Fn(usize) -> f64, mean: f64, divisor: f64
         return (ss / divisor).sqrt();
     }
     let scale = values.iter().map(|v| (v - mean).abs()).fold(0.0, f64::max);
-    let scaled: f64 = values.iter().enumerate().map(|(i, v)| weight(i) * ((v - mean) / scale).powi(2)).sum();
+    let scaled: f64 = values
+        .iter()
+        .enumerate()
+        .map(|(i, v)| weight(i) * ((v - mean) / scale).powi(2))
+        .sum();
     scale * (scaled / divisor).sqrt()
 }
 

@@ -141,6 +141,31 @@ fn paired(job: &Job, baseline: &Resampled, candidate: &Resampled, contrast: Cont
     Ok((Target::Paired { pair, rows }, contrast.of(ec, eb), Some((eb, ec))))
 }
 
+/// A ratio reads as "candidate over baseline" only for a positive baseline and a candidate of
+/// 0 or more, and needs an estimate that is defined (a baseline of almost 0 has none).
+fn check_ratio(job: &Job, estimate: f64, sample_estimates: Option<(f64, f64)>) -> Result<(), RunError> {
+    let ratio = matches!(
+        job.samples,
+        Samples::Two {
+            contrast: Contrast::Ratio,
+            ..
+        }
+    );
+    match sample_estimates {
+        Some((baseline, candidate)) if ratio && !(baseline > 0.0 && candidate >= 0.0 && crate::engine::summary::defined(estimate)) => {
+            Err(RunError::Data {
+                which: Which::Baseline,
+                problems: vec![DataError::RatioNotPositive {
+                    statistic: job.statistic.name(),
+                    baseline,
+                    candidate,
+                }],
+            })
+        }
+        _ => Ok(()),
+    }
+}
+
 /// Check a job against its data and its limits and lay it out.
 pub fn prepare(job: Job) -> Result<Prepared, RunError> {
     let (target, estimate, sample_estimates) = match &job.samples {
@@ -170,15 +195,7 @@ pub fn prepare(job: Job) -> Result<Prepared, RunError> {
             paired: true,
         } => paired(&job, baseline, candidate, *contrast)?,
     };
-    // A ratio whose baseline is 0 (or nearly) has no estimate to interval.
-    if !crate::engine::summary::defined(estimate) {
-        return Err(RunError::Data {
-            which: Which::Baseline,
-            problems: vec![DataError::Undefined {
-                statistic: job.statistic.name(),
-            }],
-        });
-    }
+    check_ratio(&job, estimate, sample_estimates)?;
     let enumerated = enumerated(&target, job.max_resamples)?;
     let work = cost::estimate(&job, &target, enumerated).map_err(|o| RunError::WorkLimit {
         needed: o.needed,

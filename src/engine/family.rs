@@ -97,7 +97,10 @@ mod tests {
         // 1 − (1 − 5e-324)/1 rounds to 0, which is no level; (1 − 1 + L)/1 is L itself.
         for m in [Multiplicity::Bonferroni, Multiplicity::Holm] {
             let r = readings(m, 5e-324, &[0.95], &[0.5]);
-            assert!(r[0].change_level > 0.0 && r[0].simultaneous_level.is_some_and(|l| l > 0.0), "{m}: {r:?}");
+            assert!(
+                r[0].change_level > 0.0 && r[0].simultaneous_level.is_some_and(|l| l > 0.0),
+                "{m}: {r:?}"
+            );
         }
     }
 }

@@ -246,7 +246,7 @@ pub fn decide(e: &Evidence, reading: Reading) -> Decision {
         upper: iv.upper,
         band: c.band(),
         p_value: p_value(e),
-        equivalence_p_value: p_equivalence(e.reader, e.method, c),
+        equivalence_p_value: p_equivalence(e.reader, e.method, c).max(floor),
         floor,
         runs_needed,
         reason: String::new(),

@@ -4,11 +4,14 @@
 //!
 //! - [`contract`]: the OpenAPI document, the parser, the catalogue and `docs/api.md` agree.
 //! - [`interval`]: `POST /v1/interval`, validation, problems, tokens, limits.
+//! - [`compare`]: `POST /v1/compare` and a batch's comparisons: verdicts, too few runs, exact
+//!   enumeration by default, pairs, tokens, validation, Bonferroni and Holm families.
 //! - [`service`]: catalogue, batch, shedding and the pool, keys, metrics, CORS, compression.
 //! - [`process`]: the binary: shutdown, logs, command-line help.
 //! - [`golden`]: full responses of varied requests, pinned bit for bit in `tests/golden/`.
 
 mod common;
+mod compare;
 mod contract;
 mod golden;
 mod interval;
