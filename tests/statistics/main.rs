@@ -1,8 +1,9 @@
 //! The engine's numbers, checked from outside: published and exact values, the BCa worked
 //! example, a coverage study against an independent simulation, exact properties
 //! (determinism across thread counts, prefixes, equivariance, degenerate data, calibrated Monte
-//! Carlo errors), and details that broader tests could miss. The sources of every outside value
-//! are in `docs/references.md`.
+//! Carlo errors), details that broader tests could miss, and the verdicts of comparisons by
+//! simulation (false alarms, Holm's family-wise rate, power, equivalence, pairing). The sources
+//! of every outside value are in `docs/references.md`.
 
 mod bca;
 mod common;
@@ -10,3 +11,4 @@ mod coverage;
 mod details;
 mod properties;
 mod reference;
+mod verdicts;
