@@ -13,7 +13,7 @@ use utoipa::openapi::RefOr;
 use utoipa::ToSchema;
 
 use super::data::{Data, DataForm};
-use super::decode::Errors;
+use super::decode::{checked, Errors};
 use super::fields::{ResampleMode, Resamples};
 use super::interval::parse_json;
 use super::job::{self, Asked, PreparedJob, Ran};
@@ -126,16 +126,12 @@ pub fn prepare(
     started: Instant,
     deadline_cap: Option<Instant>,
 ) -> Result<PreparedJob, Problem> {
+    let req = checked(
+        json,
+        |raw, errs| CompareRequest::decode(raw, "", also, errs),
+        |r, raw, errs| r.check(raw, limits, errs),
+    )?;
     let raw = json.as_object().expect("an object");
-    let mut errs = Errors::default();
-    let req = CompareRequest::decode(raw, "", also, &mut errs);
-    if let Some(r) = &req {
-        r.check(raw, limits, &mut errs);
-    }
-    let req = match req {
-        Some(r) if errs.is_empty() => r,
-        _ => return Err(Problem::invalid(errs.0)),
-    };
     let asked = Asked {
         resampling: &req.resampling,
         samples: vec![

@@ -10,7 +10,7 @@
 use serde::de::DeserializeOwned;
 use serde_json::{Map, Value};
 
-use super::problem::{escape_token, FieldError};
+use super::problem::{escape_token, FieldError, Problem};
 use super::rules::Rule;
 
 /// Field errors collected while reading a request.
@@ -342,6 +342,25 @@ macro_rules! wire_object {
             None => Some(None),
         }
     };
+}
+
+/// Decode a request object with `decode` and hold it to the rules of `check`, every error at
+/// once: the shared first step of each compute route.
+pub fn checked<T>(
+    json: &Value,
+    decode: impl FnOnce(&Map<String, Value>, &mut Errors) -> Option<T>,
+    check: impl FnOnce(&T, &Map<String, Value>, &mut Errors),
+) -> Result<T, Problem> {
+    let raw = json.as_object().expect("an object");
+    let mut errs = Errors::default();
+    let req = decode(raw, &mut errs);
+    if let Some(r) = &req {
+        check(r, raw, &mut errs);
+    }
+    match req {
+        Some(r) if errs.is_empty() => Ok(r),
+        _ => Err(Problem::invalid(errs.0)),
+    }
 }
 
 #[cfg(test)]

@@ -8,7 +8,7 @@ use std::time::Instant;
 use serde_json::Value;
 
 use super::data::DataForm;
-use super::decode::Errors;
+use super::decode::checked;
 use super::job::{self, Asked, PreparedJob, Ran};
 use super::problem::Problem;
 use super::request::IntervalRequest;
@@ -110,16 +110,11 @@ pub fn prepare(
     started: Instant,
     deadline_cap: Option<Instant>,
 ) -> Result<PreparedJob, Problem> {
-    let raw = json.as_object().expect("an object");
-    let mut errs = Errors::default();
-    let req = IntervalRequest::decode(raw, "", also, &mut errs);
-    if let Some(r) = &req {
-        r.check(raw, limits, &mut errs);
-    }
-    let req = match req {
-        Some(r) if errs.is_empty() => r,
-        _ => return Err(Problem::invalid(errs.0)),
-    };
+    let req = checked(
+        json,
+        |raw, errs| IntervalRequest::decode(raw, "", also, errs),
+        |r, raw, errs| r.check(raw, limits, errs),
+    )?;
     let form = DataForm::of(&req.data.0);
     let asked = Asked {
         resampling: &req.resampling,
