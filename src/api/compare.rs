@@ -14,7 +14,7 @@ use utoipa::ToSchema;
 
 use super::data::{Data, DataForm};
 use super::decode::{checked, Errors};
-use super::fields::{ResampleMode, Resamples};
+use super::fields::{Methods, ResampleMode, Resamples};
 use super::interval::parse_json;
 use super::job::{self, Asked, PreparedJob, Ran};
 use super::problem::Problem;
@@ -23,6 +23,7 @@ use super::response::{IntervalResponse, WarningJson};
 use super::rules::Rule;
 use crate::config::Limits;
 use crate::engine::diagnostics;
+use crate::engine::interval::{Method, COMPARISON_METHODS, DEFAULT_METHODS};
 use crate::engine::job::Contrast;
 use crate::engine::scheme::SchemeSpec;
 use crate::engine::verdict::{self, Better, Decision, Evidence, Reading, Tolerance, Verdict};
@@ -97,13 +98,24 @@ impl CompareRequest {
 /// small comparisons exactly.
 pub fn request_schema() -> RefOr<Schema> {
     let mut schema = super::schema::flattened::<CompareRequest>();
+    let quoted = |m: &[Method]| m.iter().map(|m| format!("`\"{m}\"`")).collect::<Vec<_>>().join(", ");
+    let defaults = [
+        ("resamples", format!(
+            "How many resamples to draw, `\"auto\"` or `\"exact\"`. Without it (and without a token), `\"exact\"` where both samples have at most {EXACT_BY_DEFAULT} distinct resamples between them (up to five runs a side, or ten pairs), so that a small suite carries no Monte Carlo error; else {}.",
+            crate::engine::plan::DEFAULT_RESAMPLES
+        )),
+        ("methods", format!(
+            "The interval methods; the verdict is read from the first. Without it, {} where the contrast has an analytic standard error (a statistic that has one, unpaired), since the studentized interval's far tails stay near nominal at small n; else {}.",
+            quoted(&COMPARISON_METHODS),
+            quoted(&DEFAULT_METHODS)
+        )),
+    ];
     if let RefOr::T(Schema::Object(o)) = &mut schema {
-        if let Some(RefOr::T(Schema::OneOf(r))) = o.properties.get_mut("resamples") {
-            r.default = None;
-            r.description = Some(format!(
-                "How many resamples to draw, `\"auto\"` or `\"exact\"`. Without it (and without a token), `\"exact\"` where both samples have at most {EXACT_BY_DEFAULT} distinct resamples between them (up to five runs a side, or ten pairs), so that a small suite carries no Monte Carlo error; else {}.",
-                crate::engine::plan::DEFAULT_RESAMPLES
-            ));
+        for (field, description) in defaults {
+            if let Some(RefOr::T(Schema::OneOf(r))) = o.properties.get_mut(field) {
+                r.default = None;
+                r.description = Some(description);
+            }
         }
     }
     schema
@@ -140,19 +152,26 @@ pub fn prepare(
         ],
         comparing: Some(req.comparing()),
     };
-    // Unless told otherwise, enumerate where that is cheap; else draw the default number.
     let r = &req.resampling;
-    if raw.contains_key("resamples") || r.token.is_some() || r.scheme != SchemeSpec::default() {
-        return job::prepare(&asked, None, limits, started, deadline_cap);
+    let mut params = r.params();
+    if !raw.contains_key("methods") && params.statistic.has_analytic_se() && !req.paired {
+        params.methods = Methods(COMPARISON_METHODS.to_vec());
     }
-    let mut exact = r.params();
+    // Unless told otherwise, enumerate where that is cheap; else draw the default number.
+    if raw.contains_key("resamples") || r.token.is_some() || r.scheme != SchemeSpec::default() {
+        return job::prepare(&asked, Some(params), limits, started, deadline_cap);
+    }
+    let drawn = params.clone();
+    let mut exact = params;
     exact.resamples = Resamples::Mode(ResampleMode::Exact);
     let small = Limits {
         max_resamples: limits.max_resamples.min(EXACT_BY_DEFAULT),
         ..limits.clone()
     };
     match job::prepare(&asked, Some(exact), &small, started, deadline_cap) {
-        Err(p) if p.errors.iter().any(|e| e.rule == Some(Rule::ExactTooMany)) => job::prepare(&asked, None, limits, started, deadline_cap),
+        Err(p) if p.errors.iter().any(|e| e.rule == Some(Rule::ExactTooMany)) => {
+            job::prepare(&asked, Some(drawn), limits, started, deadline_cap)
+        }
         other => other,
     }
 }

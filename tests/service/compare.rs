@@ -208,7 +208,7 @@ async fn each_verdict_is_read_from_the_first_interval_against_the_tolerance_band
         let v = ok(compare(&app, timings(&candidate)).await);
         assert_eq!(v["verdict"], verdict, "{v}");
         let reason = v["verdict_reason"].as_str().unwrap();
-        for part in ["95% percentile interval", BAND_2_PERCENT, words] {
+        for part in ["95% studentized interval", BAND_2_PERCENT, words] {
             assert!(reason.contains(part), "{verdict}: the reason names {part:?}: {reason}");
         }
         check_decision(&v, floor);
@@ -287,6 +287,29 @@ async fn the_verdict_is_read_from_the_first_method_at_the_first_level() {
     );
     assert!(v["verdict_reason"].as_str().unwrap().contains("its 90% bca interval"), "{v}");
     check_decision(&v, unpaired_floor(8, 8));
+}
+
+#[tokio::test]
+async fn without_methods_the_verdict_is_studentized_where_the_contrast_has_an_analytic_error() {
+    let app = TestApp::spawn().await;
+    let methods = |v: &Value| -> Vec<Value> {
+        v["contrast"]["intervals"].as_array().unwrap().iter().map(|i| i["method"].clone()).collect()
+    };
+    // The mean's standard error is analytic, so is a ratio's or a difference's of two
+    // independent means (the delta method): studentized first, at no nested bootstrap.
+    let means = ok(compare(&app, timings(&SLOWER)).await);
+    assert_eq!(methods(&means), [json!("studentized"), json!("percentile"), json!("bca")], "{means}");
+    assert_eq!(means["decision"]["method"], "studentized");
+    assert_eq!(means["contrast"]["diagnostics"]["studentized_standard_error"], "analytic");
+    // The median has none, and paired runs neither (the pairs' contrast has no closed form):
+    // the interval defaults.
+    for body in [with(timings(&SLOWER), "statistic", json!("median")), with(timings(&SLOWER), "paired", json!(true))] {
+        let v = ok(compare(&app, body).await);
+        assert_eq!(methods(&v), [json!("percentile"), json!("bca")], "{v}");
+    }
+    // Named methods are kept as named.
+    let named = ok(compare(&app, with(timings(&SLOWER), "methods", json!(["percentile"]))).await);
+    assert_eq!(methods(&named), [json!("percentile")]);
 }
 
 #[tokio::test]
@@ -612,12 +635,13 @@ fn shifted(shift: f64, scale: f64) -> Vec<f64> {
 /// 1.6 % (p about 0.01, between Bonferroni's 0.05/6 and Holm's 0.05/3 for the fourth
 /// smallest), none (read at its own 90 % without a correction), and 1.2 % with half the
 /// noise. Job 2 is an interval job and job 7 a comparison that fails: neither is in the family.
+/// The comparisons name percentile (whose p-values these shifts were chosen by).
 fn family(multiplicity: &str) -> Value {
     let shifts = [(6.0, 1.0), (0.2, 1.0), (3.0, 1.0), (1.6, 1.0), (-0.3, 1.0), (1.2, 0.5)];
     let mut jobs: Vec<Value> = shifts
         .iter()
         .zip(20..)
-        .map(|(&(shift, scale), seed)| json!({"kind": "compare", "baseline": BASELINE, "candidate": shifted(shift, scale), "seed": seed}))
+        .map(|(&(shift, scale), seed)| json!({"kind": "compare", "baseline": BASELINE, "candidate": shifted(shift, scale), "seed": seed, "methods": ["percentile"]}))
         .collect();
     jobs[4]["levels"] = json!([0.9]);
     jobs.insert(2, json!({"kind": "interval", "data": BASELINE, "seed": 3}));

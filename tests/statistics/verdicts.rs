@@ -218,11 +218,12 @@ fn is_change(v: Verdict) -> bool {
     matches!(v, Verdict::Regression | Verdict::Improvement)
 }
 
-/// The percentile and studentized intervals: the service's default first method, and
-/// the one whose p-values are calibrated at n = 30 (it studentizes each resample, so the t-like
-/// tails of an estimated variance are carried into the interval; Efron & Tibshirani 1993,
-/// ch. 12). For the mean the studentized standard error is analytic, so it costs no nested
-/// bootstrap. Each verdict is what a request naming that method first would get.
+/// The percentile and studentized intervals: the first method of an interval request's
+/// defaults, and the one whose p-values are calibrated at n = 30 (it studentizes each resample,
+/// so the t-like tails of an estimated variance are carried into the interval; Efron &
+/// Tibshirani 1993, ch. 12), which a comparison of means reads its verdict from by default
+/// (`COMPARISON_METHODS`). For the mean the studentized standard error is analytic, so it costs
+/// no nested bootstrap. Each verdict is what a request naming that method first would get.
 const BOTH: [Method; 2] = [Method::Percentile, Method::Studentized];
 
 /// Families of the no-change study, and comparisons in each.
