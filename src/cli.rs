@@ -1,6 +1,6 @@
 //! The command line: `bandsaw serve` (the default), `bandsaw interval`, which runs the same
-//! engine in-process on a request file, and `bandsaw openapi`, which prints the API's OpenAPI
-//! document. Each command offers only the flags that apply to it.
+//! engine in-process on a request file, `bandsaw check`, which decides a benchmark suite's
+//! regressions from files, and `bandsaw openapi`, which prints the API's OpenAPI document. Each command offers only the flags that apply to it.
 
 use std::io::Read;
 use std::sync::atomic::AtomicBool;
@@ -33,6 +33,11 @@ pub enum Command {
     /// Compute one interval in-process: read a request body (the JSON of POST /v1/interval)
     /// from a file or standard input and print the response JSON.
     Interval(IntervalArgs),
+    /// Compare a benchmark suite's runs before and after a change and decide, per benchmark,
+    /// regression, improvement, equivalent or inconclusive, here or on a server (--server).
+    /// Exit status: 0 no regression, 1 a regression, 2 bad input or usage, 3 inconclusive
+    /// under --strict.
+    Check(Box<crate::check::CheckArgs>),
     /// Print the OpenAPI 3.1 document of the HTTP API (the same bytes as GET /openapi.json
     /// and openapi/openapi.json).
     Openapi,

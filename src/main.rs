@@ -8,6 +8,7 @@ fn main() {
     let args = Cli::parse();
     match args.command {
         Some(Command::Interval(a)) => std::process::exit(cli::interval(&a)),
+        Some(Command::Check(a)) => std::process::exit(bandsaw::check::run(&a)),
         Some(Command::Openapi) => std::process::exit(cli::openapi()),
         Some(Command::Serve(config)) => serve(config),
         None => serve(args.serve),

@@ -293,17 +293,29 @@ async fn the_verdict_is_read_from_the_first_method_at_the_first_level() {
 async fn without_methods_the_verdict_is_studentized_where_the_contrast_has_an_analytic_error() {
     let app = TestApp::spawn().await;
     let methods = |v: &Value| -> Vec<Value> {
-        v["contrast"]["intervals"].as_array().unwrap().iter().map(|i| i["method"].clone()).collect()
+        v["contrast"]["intervals"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|i| i["method"].clone())
+            .collect()
     };
     // The mean's standard error is analytic, so is a ratio's or a difference's of two
     // independent means (the delta method): studentized first, at no nested bootstrap.
     let means = ok(compare(&app, timings(&SLOWER)).await);
-    assert_eq!(methods(&means), [json!("studentized"), json!("percentile"), json!("bca")], "{means}");
+    assert_eq!(
+        methods(&means),
+        [json!("studentized"), json!("percentile"), json!("bca")],
+        "{means}"
+    );
     assert_eq!(means["decision"]["method"], "studentized");
     assert_eq!(means["contrast"]["diagnostics"]["studentized_standard_error"], "analytic");
     // The median has none, and paired runs neither (the pairs' contrast has no closed form):
     // the interval defaults.
-    for body in [with(timings(&SLOWER), "statistic", json!("median")), with(timings(&SLOWER), "paired", json!(true))] {
+    for body in [
+        with(timings(&SLOWER), "statistic", json!("median")),
+        with(timings(&SLOWER), "paired", json!(true)),
+    ] {
         let v = ok(compare(&app, body).await);
         assert_eq!(methods(&v), [json!("percentile"), json!("bca")], "{v}");
     }

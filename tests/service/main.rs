@@ -8,8 +8,11 @@
 //!   enumeration by default, pairs, tokens, validation, Bonferroni and Holm families.
 //! - [`service`]: catalogue, batch, shedding and the pool, keys, metrics, CORS, compression.
 //! - [`process`]: the binary: shutdown, logs, command-line help.
+//! - [`check`]: `bandsaw check` as a CI job runs it: input forms, reports, exit statuses, and
+//!   the same report in-process and from a server.
 //! - [`golden`]: full responses of varied requests, pinned bit for bit in `tests/golden/`.
 
+mod check;
 mod common;
 mod compare;
 mod contract;

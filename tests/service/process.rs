@@ -8,9 +8,10 @@ use std::time::{Duration, Instant};
 
 use serde_json::json;
 
-struct Server {
-    child: Child,
-    base: String,
+/// The binary serving on a free port; killed when dropped.
+pub struct Server {
+    pub child: Child,
+    pub base: String,
 }
 
 impl Drop for Server {
@@ -20,7 +21,8 @@ impl Drop for Server {
     }
 }
 
-fn start(extra: &[&str]) -> Server {
+/// Start `bandsaw serve` on a free loopback port with two threads and `extra` flags.
+pub fn start(extra: &[&str]) -> Server {
     let mut child = Command::new(env!("CARGO_BIN_EXE_bandsaw"))
         .args(["serve", "--listen", "127.0.0.1:0", "--threads", "2"])
         .args(extra)
@@ -208,6 +210,33 @@ fn each_command_offers_only_the_flags_that_apply_to_it() {
         assert!(
             !interval.contains(server_only),
             "`interval --help` offers the server's {server_only}:\n{interval}"
+        );
+    }
+    let check = help_of(&["check", "--help"]);
+    for flag in [
+        "--statistic",
+        "--contrast",
+        "--better",
+        "--tolerance",
+        "--level",
+        "--method",
+        "--resamples",
+        "--seed",
+        "--paired",
+        "--multiplicity",
+        "--format",
+        "--strict",
+        "--server",
+        "--column",
+        "--threads",
+        "--work-limit",
+    ] {
+        assert!(check.contains(flag), "`check --help` lacks {flag}:\n{check}");
+    }
+    for server_only in ["--listen", "--api-keys", "--cors-origins", "--queue"] {
+        assert!(
+            !check.contains(server_only),
+            "`check --help` offers the server's {server_only}:\n{check}"
         );
     }
     let serve = help_of(&["serve", "--help"]);

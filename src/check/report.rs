@@ -1,0 +1,483 @@
+//! The reports of `bandsaw check`: a compact text for a CI log, a Markdown table for a
+//! pull-request comment or job summary, JUnit XML for a CI system's test view, and the JSON of
+//! the batch response. Each is built from the response alone (the same whether it came from
+//! this process or a server), so the same seed gives the same report either way.
+
+use quick_xml::events::{BytesDecl, BytesText, Event};
+use quick_xml::Writer;
+use serde::Deserialize;
+use serde_json::{Map, Value};
+
+use super::{CheckArgs, Exit, Format};
+use crate::engine::job::Contrast;
+use crate::engine::verdict::{num, Better, Verdict};
+
+/// What a report needs of one compare job's response.
+#[derive(Debug, Clone, Deserialize)]
+pub struct Compared {
+    pub verdict: Verdict,
+    pub verdict_reason: String,
+    pub baseline_n: u64,
+    pub candidate_n: u64,
+    pub comparison: Comparison,
+    pub contrast: ContrastView,
+    pub decision: DecisionView,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+pub struct Comparison {
+    pub contrast: Contrast,
+    pub better: Better,
+    pub tolerance: f64,
+    pub paired: bool,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+pub struct ContrastView {
+    pub estimate: f64,
+    pub statistic: Value,
+    pub diagnostics: DiagnosticsView,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+pub struct DiagnosticsView {
+    pub warnings: Vec<WarningView>,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+pub struct WarningView {
+    pub code: String,
+}
+
+#[derive(Debug, Clone, Deserialize)]
+pub struct DecisionView {
+    pub method: String,
+    pub level: f64,
+    pub lower: f64,
+    pub upper: f64,
+}
+
+/// One benchmark's line of a report.
+#[derive(Debug, Clone)]
+pub enum Row<'a> {
+    Decided(&'a str, Box<Compared>),
+    /// The job was refused: the problem's detail and each field's pointer and message.
+    Failed(&'a str, String, Vec<(String, String)>),
+}
+
+impl Row<'_> {
+    fn name(&self) -> &str {
+        match self {
+            Row::Decided(n, _) | Row::Failed(n, _, _) => n,
+        }
+    }
+}
+
+/// The problem's detail and its field errors, pointers made relative to the job.
+fn problem_parts(problem: &Value, job: Option<usize>) -> (String, Vec<(String, String)>) {
+    let detail = problem["detail"]
+        .as_str()
+        .or(problem["title"].as_str())
+        .unwrap_or("refused")
+        .to_string();
+    let prefix = job.map(|i| format!("/jobs/{i}"));
+    let errors = problem["errors"]
+        .as_array()
+        .map(Vec::as_slice)
+        .unwrap_or(&[])
+        .iter()
+        .map(|e| {
+            let pointer = e["pointer"].as_str().unwrap_or("");
+            let local = prefix.as_deref().and_then(|p| pointer.strip_prefix(p)).unwrap_or(pointer);
+            (local.to_string(), e["message"].as_str().unwrap_or("").to_string())
+        })
+        .collect();
+    (detail, errors)
+}
+
+/// Each benchmark's row, from a batch response.
+pub fn rows<'a>(response: &Value, names: &[&'a str]) -> Vec<Row<'a>> {
+    let empty = Vec::new();
+    let results = response["results"].as_array().unwrap_or(&empty);
+    names
+        .iter()
+        .enumerate()
+        .map(|(i, name)| {
+            let r = results.get(i).cloned().unwrap_or(Value::Null);
+            match serde_json::from_value::<Compared>(r["ok"].clone()) {
+                Ok(c) => Row::Decided(name, Box::new(c)),
+                Err(e) if r.get("error").is_none() => Row::Failed(name, format!("an answer this report cannot read: {e}"), vec![]),
+                Err(_) => {
+                    let (detail, errors) = problem_parts(&r["error"], Some(i));
+                    Row::Failed(name, detail, errors)
+                }
+            }
+        })
+        .collect()
+}
+
+/// A contrast for a person: a ratio as a signed percentage change, a difference as a signed
+/// number in data units.
+fn change(contrast: Contrast, x: f64) -> String {
+    match contrast {
+        Contrast::Ratio => {
+            let pct = (x - 1.0) * 100.0;
+            let digits = if pct.abs() >= 1.0 { 1 } else { 2 };
+            format!("{pct:+.digits$}%")
+        }
+        Contrast::Difference if x > 0.0 => format!("+{}", num(x)),
+        Contrast::Difference => num(x),
+    }
+}
+
+fn percent(level: f64) -> String {
+    format!("{}%", num(level * 100.0))
+}
+
+/// The statistic's name as the response gives it (with its parameters, if any).
+fn statistic_words(s: &Value) -> String {
+    let name = s["name"].as_str().unwrap_or("statistic").replace('_', " ");
+    let params: Vec<String> = s
+        .as_object()
+        .map(|o| o.iter().filter(|(k, _)| *k != "name").map(|(k, v)| format!("{k} {v}")).collect())
+        .unwrap_or_default();
+    match params.is_empty() {
+        true => name,
+        false => format!("{name} ({})", params.join(", ")),
+    }
+}
+
+/// What was compared, in one line (from the first decided benchmark).
+fn setup_line(rows: &[Row]) -> Option<String> {
+    rows.iter().find_map(|r| match r {
+        Row::Decided(_, c) => {
+            let cmp = &c.comparison;
+            let contrast = match cmp.contrast {
+                Contrast::Ratio => "candidate / baseline",
+                Contrast::Difference => "candidate - baseline",
+            };
+            let tolerance = match cmp.contrast {
+                Contrast::Ratio => format!("{}%", num(cmp.tolerance * 100.0)),
+                Contrast::Difference => num(cmp.tolerance),
+            };
+            let paired = if cmp.paired { ", runs paired" } else { "" };
+            Some(format!(
+                "{} of {contrast}, {} is better, changes within {tolerance} count as none{paired}",
+                statistic_words(&c.contrast.statistic),
+                cmp.better
+            ))
+        }
+        Row::Failed(..) => None,
+    })
+}
+
+/// How the suite's verdicts hold together, in one line.
+fn family_line(response: &Value, decided: usize) -> String {
+    let level = response["family_level"].as_f64().unwrap_or(0.95);
+    let alarm = percent(1.0 - level);
+    match response["multiplicity"].as_str().unwrap_or("none") {
+        _ if decided < 2 => "one comparison: its verdict at its own level".to_string(),
+        "holm" => format!("Holm's step-down over {decided} comparisons: a false alarm anywhere in the suite at most {alarm} of the time"),
+        "bonferroni" => format!("Bonferroni over {decided} comparisons: a false alarm anywhere in the suite at most {alarm} of the time"),
+        _ => format!("no correction over {decided} comparisons: each may raise a false alarm at its own rate"),
+    }
+}
+
+/// How many of each verdict, and errors: "1 regression, 2 equivalent, 1 inconclusive".
+fn tally(rows: &[Row]) -> String {
+    let count = |v: Verdict| rows.iter().filter(|r| matches!(r, Row::Decided(_, c) if c.verdict == v)).count();
+    let errors = rows.iter().filter(|r| matches!(r, Row::Failed(..))).count();
+    let mut parts: Vec<String> = [
+        Verdict::Regression,
+        Verdict::Improvement,
+        Verdict::Equivalent,
+        Verdict::Inconclusive,
+    ]
+    .into_iter()
+    .map(|v| (v, count(v)))
+    .filter(|(_, n)| *n > 0)
+    .map(|(v, n)| {
+        let plural = if n > 1 && v != Verdict::Equivalent && v != Verdict::Inconclusive {
+            "s"
+        } else {
+            ""
+        };
+        format!("{n} {v}{plural}")
+    })
+    .collect();
+    if errors > 0 {
+        parts.push(format!("{errors} refused"));
+    }
+    parts.join(", ")
+}
+
+/// What the exit status means.
+fn exit_words(exit: Exit) -> &'static str {
+    match exit {
+        Exit::Clear => "no regression",
+        Exit::Regression => "a regression",
+        Exit::Unusable => "a benchmark could not be compared",
+        Exit::Undecided => "inconclusive under --strict",
+    }
+}
+
+/// The warnings worth a reader's attention (the small-sample one is said by the verdict).
+fn warning_codes(c: &Compared) -> Vec<&str> {
+    c.contrast.diagnostics.warnings.iter().map(|w| w.code.as_str()).collect()
+}
+
+/// The text report for a CI log.
+pub fn text(response: &Value, names: &[&str], seed: u64, exit: Exit) -> String {
+    let rows = rows(response, names);
+    let width = names.iter().map(|n| n.chars().count()).max().unwrap_or(0).max(9);
+    let decided = rows.iter().filter(|r| matches!(r, Row::Decided(..))).count();
+    let mut out = format!(
+        "bandsaw check: {} benchmark{}, candidate against baseline\n",
+        rows.len(),
+        if rows.len() == 1 { "" } else { "s" }
+    );
+    if let Some(setup) = setup_line(&rows) {
+        out += &format!("  {setup}\n");
+    }
+    out += &format!("  {}\n\n", family_line(response, decided));
+    for row in &rows {
+        out += &text_row(row, width);
+    }
+    out += &format!("\n{} -> exit {} ({})\n", tally(&rows), exit as i32, exit_words(exit));
+    out += &format!("seed {seed}: --seed {seed} repeats these numbers\n");
+    out
+}
+
+fn text_row(row: &Row, width: usize) -> String {
+    match row {
+        Row::Decided(name, c) => {
+            let label = match c.verdict {
+                Verdict::Regression => "REGRESSION".to_string(),
+                v => v.to_string(),
+            };
+            let k = c.comparison.contrast;
+            let d = &c.decision;
+            let mut s = format!(
+                "  {label:<12}  {name:<width$}  {:>8}  {} {} interval {} to {}  runs {}/{}\n",
+                change(k, c.contrast.estimate),
+                percent(d.level),
+                d.method,
+                change(k, d.lower),
+                change(k, d.upper),
+                c.baseline_n,
+                c.candidate_n
+            );
+            if c.verdict != Verdict::Equivalent {
+                s += &format!("  {:<12}  {}\n", "", c.verdict_reason);
+            }
+            let codes = warning_codes(c);
+            if !codes.is_empty() {
+                s += &format!("  {:<12}  warnings: {}\n", "", codes.join(", "));
+            }
+            s
+        }
+        Row::Failed(name, detail, errors) => {
+            let mut s = format!("  {:<12}  {name:<width$}  {detail}\n", "REFUSED");
+            for (pointer, message) in errors {
+                s += &format!("  {:<12}  {pointer}: {message}\n", "");
+            }
+            s
+        }
+    }
+}
+
+/// Markdown's cell text: pipes and line breaks would end the cell.
+fn cell(s: &str) -> String {
+    s.replace('|', "\\|").replace('\n', " ")
+}
+
+/// The Markdown report for a pull-request comment or a CI job summary.
+pub fn markdown(response: &Value, names: &[&str], seed: u64, exit: Exit) -> String {
+    let rows = rows(response, names);
+    let decided = rows.iter().filter(|r| matches!(r, Row::Decided(..))).count();
+    let regressions = rows
+        .iter()
+        .filter(|r| matches!(r, Row::Decided(_, c) if c.verdict == Verdict::Regression))
+        .count();
+    let headline = match regressions {
+        0 => format!(
+            "no regression in {} benchmark{}",
+            rows.len(),
+            if rows.len() == 1 { "" } else { "s" }
+        ),
+        n => format!("{n} regression{} in {} benchmarks", if n == 1 { "" } else { "s" }, rows.len()),
+    };
+    let mut out = format!("### bandsaw check: {headline}\n\n");
+    if let Some(setup) = setup_line(&rows) {
+        out += &format!("{}; {}.\n\n", cell(&setup), family_line(response, decided));
+    }
+    out += "| verdict | benchmark | change | interval | level | runs (baseline / candidate) |\n";
+    out += "| --- | --- | ---: | --- | ---: | ---: |\n";
+    for row in &rows {
+        out += &markdown_row(row);
+    }
+    out += &format!("\n{} (exit {}: {}). Seed {seed}.\n", tally(&rows), exit as i32, exit_words(exit));
+    let reasons: Vec<String> = rows
+        .iter()
+        .filter_map(|r| match r {
+            Row::Decided(n, c) if c.verdict != Verdict::Equivalent => Some(format!("- `{}`: {}", cell(n), cell(&c.verdict_reason))),
+            Row::Failed(n, d, e) => Some(format!(
+                "- `{}` was refused: {}{}",
+                cell(n),
+                cell(d),
+                e.iter().map(|(p, m)| format!(" `{p}`: {}", cell(m))).collect::<String>()
+            )),
+            Row::Decided(..) => None,
+        })
+        .collect();
+    if !reasons.is_empty() {
+        out += &format!("\n<details><summary>Why</summary>\n\n{}\n\n</details>\n", reasons.join("\n"));
+    }
+    out
+}
+
+fn markdown_row(row: &Row) -> String {
+    match row {
+        Row::Decided(name, c) => {
+            let k = c.comparison.contrast;
+            let verdict = match c.verdict {
+                Verdict::Regression => "**regression**".to_string(),
+                v => v.to_string(),
+            };
+            format!(
+                "| {verdict} | `{}` | {} | {} to {} | {} {} | {} / {} |\n",
+                cell(name),
+                change(k, c.contrast.estimate),
+                change(k, c.decision.lower),
+                change(k, c.decision.upper),
+                percent(c.decision.level),
+                c.decision.method,
+                c.baseline_n,
+                c.candidate_n
+            )
+        }
+        Row::Failed(name, detail, _) => format!("| **refused** | `{}` | | {} | | |\n", cell(name), cell(detail)),
+    }
+}
+
+/// JUnit XML: one test case per benchmark; a regression is a failure, an inconclusive result
+/// a skipped case, a refused job an error, each with the reason as its message.
+pub fn junit(response: &Value, names: &[&str]) -> String {
+    let rows = rows(response, names);
+    let count = |f: &dyn Fn(&Row) -> bool| rows.iter().filter(|r| f(r)).count().to_string();
+    let is = |v: Verdict| move |r: &Row| matches!(r, Row::Decided(_, c) if c.verdict == v);
+    let (tests, failures, skipped, errors) = (
+        rows.len().to_string(),
+        count(&is(Verdict::Regression)),
+        count(&is(Verdict::Inconclusive)),
+        count(&|r| matches!(r, Row::Failed(..))),
+    );
+    let seconds = format!("{:.3}", response["elapsed_ms"].as_f64().unwrap_or(0.0) / 1000.0);
+    let counts = [
+        ("tests", tests.as_str()),
+        ("failures", &failures),
+        ("errors", &errors),
+        ("skipped", &skipped),
+        ("time", &seconds),
+    ];
+    let mut w = Writer::new_with_indent(Vec::new(), b' ', 2);
+    let written = w
+        .write_event(Event::Decl(BytesDecl::new("1.0", Some("UTF-8"), None)))
+        .and_then(|_| {
+            w.create_element("testsuites")
+                .with_attribute(("name", "bandsaw check"))
+                .with_attributes(counts)
+                .write_inner_content(|w| {
+                    w.create_element("testsuite")
+                        .with_attribute(("name", "bandsaw check"))
+                        .with_attributes(counts)
+                        .write_inner_content(|w| rows.iter().try_for_each(|r| junit_case(w, r)))
+                        .map(|_| ())
+                })
+        });
+    written.expect("writing to memory");
+    let mut xml = String::from_utf8(w.into_inner()).expect("UTF-8");
+    xml.push('\n');
+    xml
+}
+
+fn junit_case(w: &mut Writer<Vec<u8>>, row: &Row) -> std::io::Result<()> {
+    let case = w
+        .create_element("testcase")
+        .with_attribute(("name", row.name()))
+        .with_attribute(("classname", "bandsaw.check"));
+    let (child, kind, message) = match row {
+        Row::Decided(_, c) => match c.verdict {
+            Verdict::Regression => ("failure", "regression", c.verdict_reason.clone()),
+            Verdict::Inconclusive => ("skipped", "inconclusive", c.verdict_reason.clone()),
+            _ => {
+                let out = format!("{}: {}", c.verdict, c.verdict_reason);
+                case.write_inner_content(|w| w.create_element("system-out").write_text_content(BytesText::new(&out)).map(|_| ()))?;
+                return Ok(());
+            }
+        },
+        Row::Failed(_, detail, errors) => {
+            let fields: String = errors.iter().map(|(p, m)| format!("; {p}: {m}")).collect();
+            ("error", "refused", format!("{detail}{fields}"))
+        }
+    };
+    case.write_inner_content(|w| {
+        w.create_element(child)
+            .with_attribute(("type", kind))
+            .with_attribute(("message", message.as_str()))
+            .write_empty()
+            .map(|_| ())
+    })?;
+    Ok(())
+}
+
+/// The JSON report: the batch response with the benchmarks' names first (the i-th name is the
+/// i-th result's).
+pub fn json(response: &Value, names: &[&str]) -> String {
+    let mut out = Map::new();
+    out.insert(
+        "benchmarks".into(),
+        Value::from(names.iter().map(|n| n.to_string()).collect::<Vec<_>>()),
+    );
+    if let Value::Object(o) = response {
+        out.extend(o.clone());
+    }
+    let mut s = serde_json::to_string_pretty(&Value::Object(out)).expect("JSON");
+    s.push('\n');
+    s
+}
+
+/// The report of a batch that answered, in `format`.
+pub fn render(format: Format, response: &Value, names: &[&str], seed: u64, exit: Exit) -> String {
+    match format {
+        Format::Text => text(response, names, seed, exit),
+        Format::Markdown => markdown(response, names, seed, exit),
+        Format::Junit => junit(response, names),
+        Format::Json => json(response, names),
+    }
+}
+
+/// The report of a batch refused as a whole (a bad option, the work limit): the problem's
+/// detail and fields, pointers into a job named by its benchmark.
+pub fn refused(problem: &Value, names: &[&str], args: &CheckArgs) -> String {
+    if args.format == Format::Json {
+        return json(problem, names);
+    }
+    let (detail, errors) = problem_parts(problem, None);
+    let mut out = format!("bandsaw check: refused: {detail}\n");
+    for (pointer, message) in errors {
+        out += &format!("  {}: {message}\n", place(&pointer, names));
+    }
+    out
+}
+
+/// A pointer into the batch as a person reads it: "benchmark \"x\", /tolerance".
+fn place(pointer: &str, names: &[&str]) -> String {
+    let mut parts = pointer.splitn(4, '/').skip(1);
+    match (parts.next(), parts.next().and_then(|i| i.parse::<usize>().ok()), parts.next()) {
+        (Some("jobs"), Some(i), rest) if i < names.len() => {
+            format!("benchmark {:?}, /{}", names[i], rest.unwrap_or(""))
+        }
+        _ => pointer.to_string(),
+    }
+}
