@@ -26,7 +26,7 @@ use crate::engine::diagnostics;
 use crate::engine::interval::{Method, COMPARISON_METHODS, DEFAULT_METHODS};
 use crate::engine::job::Contrast;
 use crate::engine::scheme::SchemeSpec;
-use crate::engine::verdict::{self, Better, Decision, Evidence, Reading, Tolerance, Verdict};
+use crate::engine::verdict::{self, Better, Decision, Evidence, Reading, Tolerance, Verdict, Why};
 
 crate::decode_with_serde!(Contrast, Better, Tolerance, bool);
 
@@ -191,19 +191,22 @@ pub struct DecisionJson {
     /// a ratio.
     pub tolerance_band: [f64; 2],
     /// The smallest α at which the (1 − α) interval lies wholly outside the band (1: never),
-    /// but never below `floor`: what a family's correction orders the comparisons by.
+    /// but never below `floor` nor, for B drawn resamples read by their quantiles, 2/(B + 1):
+    /// what a family's correction orders the comparisons by.
     #[schema(minimum = 0, maximum = 1)]
     pub p_value: f64,
     /// The smallest α at which the (1 − α) interval lies wholly inside the band (1: never),
-    /// but never below `floor`.
+    /// with the same least value as `p_value`. An interval inside the band is two one-sided
+    /// tests at α/2 each, so this is twice the larger one-sided p-value.
     #[schema(minimum = 0, maximum = 1)]
     pub equivalence_p_value: f64,
     /// The smallest two-sided p-value any distribution-free comparison of these runs can reach;
     /// above 1 − level no verdict but `inconclusive` is given.
     #[schema(minimum = 0, maximum = 1)]
     pub floor: f64,
-    /// When inconclusive: about how many runs per side would narrow the interval to the
-    /// tolerance at the observed noise.
+    /// When inconclusive: about how many runs per side (or pairs) would decide: at least
+    /// enough for `floor` to reach 1 − level, and with a tolerance, enough to narrow the
+    /// interval to the tolerance at the observed noise.
     #[serde(skip_serializing_if = "Option::is_none")]
     #[schema(nullable = false)]
     pub runs_needed: Option<u64>,
@@ -290,8 +293,8 @@ pub fn response(ran: Ran, reading: Reading, started: Instant) -> CompareResponse
     let (baseline_estimate, candidate_estimate) = ran.outcome.sample_estimates.expect("two samples");
     let mut contrast = IntervalResponse::from_outcome(ran.outcome, &ran.params, ran.seed, ran.token, job::elapsed_ms(started));
     contrast.n = sizes.baseline + sizes.candidate;
-    if d.floor > 1.0 - d.level {
-        let w = diagnostics::too_few_runs(sizes.baseline, sizes.candidate, d.floor, d.level);
+    if d.why == Why::TooFewRuns {
+        let w = diagnostics::too_few_runs(sizes, d.floor, d.level);
         contrast.diagnostics.warnings.push(WarningJson {
             code: w.code,
             message: w.message,

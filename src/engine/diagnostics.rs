@@ -300,16 +300,27 @@ pub fn auto_time_limit(resamples: u64) -> Warning {
     )
 }
 
-/// The warning for a comparison of `baseline` and `candidate` runs whose most extreme
-/// arrangement (two-sided p-value `floor`) is not rare enough to decide at `level`.
-pub fn too_few_runs(baseline: u64, candidate: u64, floor: f64, level: f64) -> Warning {
+/// The warning for a comparison whose runs' most lopsided arrangement (two-sided p-value
+/// `floor`) is not rare enough to decide at `level`.
+pub fn too_few_runs(sizes: crate::engine::verdict::Sizes, floor: f64, level: f64) -> Warning {
+    use crate::engine::verdict::{few_runs, num};
+    let needed = sizes.runs_for_floor(1.0 - level);
+    let unit = if sizes.paired { "pairs" } else { "runs per side" };
     Warning::new(
         WarningCode::TooFewRuns,
         format!(
-            "with {baseline} baseline and {candidate} candidate runs, even the most lopsided arrangement of the runs has a two-sided p-value of {floor:.3}, above {:.3} (1 − level): the interval's tails rest on too few runs, so the verdict is \"inconclusive\". Gather more runs per side.",
-            1.0 - level
+            "{} even the most lopsided arrangement has a two-sided p-value of {}, above {} (1 − level): the interval's tails rest on too few runs, so the verdict is \"inconclusive\". At least {needed} {unit} can decide at this level.",
+            capitalised(&few_runs(sizes)),
+            num(floor),
+            num(1.0 - level)
         ),
     )
+}
+
+/// `s` with its first letter in capitals, to start a sentence.
+fn capitalised(s: &str) -> String {
+    let mut c = s.chars();
+    c.next().map_or(String::new(), |f| f.to_uppercase().chain(c).collect())
 }
 
 /// Lag-1 autocorrelation of a series, or `None` when it is too short or constant.

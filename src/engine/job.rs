@@ -46,11 +46,15 @@ crate::wire_enum! {
 }
 
 impl Contrast {
-    /// The contrast of the candidate's value `c` with the baseline's `b`.
+    /// The contrast of the candidate's value `c` with the baseline's `b`. A ratio reads as
+    /// "candidate over baseline" only for a positive baseline and a candidate of 0 or more:
+    /// otherwise it is undefined (NaN), so that a resample whose baseline crosses 0 is counted
+    /// undefined rather than read as a huge change of the opposite sign.
     pub fn of(self, c: f64, b: f64) -> f64 {
         match self {
             Contrast::Difference => c - b,
-            Contrast::Ratio => c / b,
+            Contrast::Ratio if b > 0.0 && c >= 0.0 => c / b,
+            Contrast::Ratio => f64::NAN,
         }
     }
 }

@@ -16,7 +16,7 @@
 use statrs::function::factorial::binomial;
 
 use crate::engine::distribution::normal_dist;
-use crate::engine::interval::Method;
+use crate::engine::interval::{Endpoints, Method};
 use crate::engine::job::Contrast;
 use crate::engine::summary::Reader;
 
@@ -156,9 +156,29 @@ impl Sizes {
         }
     }
 
-    /// The runs per side now (the larger side).
-    fn per_side(&self) -> u64 {
-        self.baseline.max(self.candidate)
+    /// The runs per side of an equal design as precise as this one: n for pairs, the harmonic
+    /// mean 2·n₁·n₂/(n₁ + n₂) of two independent samples (whose variances add as σ²/n₁ + σ²/n₂).
+    fn effective_per_side(&self) -> f64 {
+        let (b, c) = (self.baseline as f64, self.candidate as f64);
+        match self.paired {
+            true => b,
+            false if b + c > 0.0 => 2.0 * b * c / (b + c),
+            false => 0.0,
+        }
+    }
+
+    /// The fewest runs per side (equal sides, or pairs) whose floor reaches `alpha`.
+    pub fn runs_for_floor(&self, alpha: f64) -> u64 {
+        (1..=1100)
+            .find(|&n| {
+                let equal = Sizes {
+                    baseline: n,
+                    candidate: n,
+                    paired: self.paired,
+                };
+                equal.floor() <= alpha
+            })
+            .unwrap_or(1100)
     }
 }
 
@@ -200,9 +220,32 @@ pub struct Decision {
     pub equivalence_p_value: f64,
     /// The smallest p-value a distribution-free comparison of the runs can reach.
     pub floor: f64,
-    /// About how many runs per side would narrow the interval to the band's width.
+    /// About how many runs per side would decide: enough to pass the floor, and to narrow the
+    /// interval to the band's width at the observed noise.
     pub runs_needed: Option<u64>,
+    /// Why the verdict is what it is.
+    pub why: Why,
     pub reason: String,
+}
+
+/// Why a comparison got its verdict: for a claim, where its interval lies; for `inconclusive`,
+/// what held it back.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Why {
+    /// The interval lies wholly beyond the band (a regression or an improvement).
+    Beyond,
+    /// The interval lies wholly inside the band.
+    Inside,
+    /// No arrangement of so few runs is rare enough for the level.
+    TooFewRuns,
+    /// The interval lies beyond the band, but a family's step-down stopped before this
+    /// comparison.
+    HeldByFamily,
+    /// The interval at the level of a change lies inside the band, but not the one at the
+    /// family's stricter level of equivalence.
+    NotInsideAtFamilyLevel,
+    /// The interval overlaps an edge of the band.
+    Overlaps,
 }
 
 /// What a verdict is decided from.
@@ -219,7 +262,20 @@ pub struct Evidence<'a> {
 /// below the floor of what a distribution-free comparison of its runs can reach (the bootstrap
 /// of a few runs has tails too short to claim more). What a family's correction orders by.
 pub fn p_value(e: &Evidence) -> f64 {
-    p_change(e.reader, e.method, &e.comparison).max(e.sizes.floor())
+    p_change(e.reader, e.method, &e.comparison).max(least_p(e))
+}
+
+/// The least p-value a comparison can report: the floor of its runs, and for B drawn
+/// replicates read by their quantiles 2/(B + 1), below which an interval's tail holds less than
+/// one replicate and its endpoint is the extreme replicate, not a quantile (an enumeration and
+/// the normal interval have no such limit).
+fn least_p(e: &Evidence) -> f64 {
+    let dist = &e.reader.dist;
+    let resolution = match e.method == Method::Normal || dist.is_exact() {
+        true => 0.0,
+        false => 2.0 / (dist.len() as f64 + 1.0),
+    };
+    e.sizes.floor().max(resolution)
 }
 
 /// Decide a comparison at a reading.
@@ -228,14 +284,10 @@ pub fn decide(e: &Evidence, reading: Reading) -> Decision {
     let floor = e.sizes.floor();
     let change = e.reader.interval(e.method, reading.change_level);
     let equal = e.reader.interval(e.method, reading.equivalence_level);
-    let enough = |level: f64| floor <= 1.0 - level;
-    let (verdict, level, iv) = match c.side(change.lower, change.upper) {
-        Side::Worse if reading.change_allowed && enough(reading.change_level) => (Verdict::Regression, reading.change_level, change),
-        Side::Better if reading.change_allowed && enough(reading.change_level) => (Verdict::Improvement, reading.change_level, change),
-        _ if c.side(equal.lower, equal.upper) == Side::Inside && enough(reading.equivalence_level) => {
-            (Verdict::Equivalent, reading.equivalence_level, equal)
-        }
-        _ => (Verdict::Inconclusive, reading.change_level, change),
+    let (verdict, why, at_equivalence) = classify(c, floor, reading, &change, &equal);
+    let (level, iv) = match at_equivalence {
+        true => (reading.equivalence_level, equal),
+        false => (reading.change_level, change),
     };
     let runs_needed = (verdict == Verdict::Inconclusive).then(|| runs_needed(e, level)).flatten();
     let mut d = Decision {
@@ -246,28 +298,56 @@ pub fn decide(e: &Evidence, reading: Reading) -> Decision {
         upper: iv.upper,
         band: c.band(),
         p_value: p_value(e),
-        equivalence_p_value: p_equivalence(e.reader, e.method, c).max(floor),
+        equivalence_p_value: p_equivalence(e.reader, e.method, c).max(least_p(e)),
         floor,
         runs_needed,
+        why,
         reason: String::new(),
     };
-    d.reason = reason(e, &d);
+    d.reason = reason(e, &d, reading);
     d
 }
 
-/// About how many runs per side would make the interval at `level` as narrow as the tolerance
-/// (z·ŝe(n′) = t with ŝe shrinking like 1/√n), enough to tell a change of twice the tolerance
-/// from none; `None` without a tolerance, or when more runs are not what is missing.
+/// The verdict, why, and whether it was read at the level of equivalence (else of a change),
+/// given where the intervals at those levels lie. Too few runs come first: whatever the
+/// intervals say, they cannot be trusted then.
+fn classify(c: &Comparison, floor: f64, reading: Reading, change: &Endpoints, equal: &Endpoints) -> (Verdict, Why, bool) {
+    let enough = |level: f64| floor <= 1.0 - level;
+    let (at_change, at_equal) = (c.side(change.lower, change.upper), c.side(equal.lower, equal.upper));
+    let undecided = |why| (Verdict::Inconclusive, why, false);
+    match at_change {
+        Side::Worse | Side::Better if !enough(reading.change_level) => undecided(Why::TooFewRuns),
+        Side::Worse | Side::Better if !reading.change_allowed => undecided(Why::HeldByFamily),
+        Side::Worse => (Verdict::Regression, Why::Beyond, false),
+        Side::Better => (Verdict::Improvement, Why::Beyond, false),
+        _ if at_equal == Side::Inside && enough(reading.equivalence_level) => (Verdict::Equivalent, Why::Inside, true),
+        _ if !enough(reading.change_level.max(reading.equivalence_level)) => undecided(Why::TooFewRuns),
+        Side::Inside => (Verdict::Inconclusive, Why::NotInsideAtFamilyLevel, true),
+        Side::Edge => undecided(Why::Overlaps),
+    }
+}
+
+/// About how many runs per side would decide at `level`: with too few runs, at least enough
+/// for the floor to pass 1 − level; with a tolerance, enough to make the interval as narrow
+/// as the tolerance (z·ŝe(n′) = t, with ŝe² shrinking like 1/n at the effective size of the
+/// design now), which tells a change of twice the tolerance from none. `None` when neither
+/// applies, or more runs are not what is missing.
 fn runs_needed(e: &Evidence, level: f64) -> Option<u64> {
+    let now = e.sizes.effective_per_side();
+    let for_floor = (e.sizes.floor() > 1.0 - level).then(|| e.sizes.runs_for_floor(1.0 - level));
     let t = e.comparison.tolerance;
     let se = e.reader.standard_error;
-    if t <= 0.0 || se <= 0.0 {
-        return None;
+    let for_noise = (t > 0.0 && se > 0.0 && now > 0.0)
+        .then(|| {
+            let z = normal_dist::upper_quantile((1.0 - level) / 2.0);
+            (now * (z * se / t).powi(2)).ceil()
+        })
+        .filter(|n| *n > now && n.is_finite())
+        .map(|n| n.min(1e12) as u64);
+    match (for_floor, for_noise) {
+        (Some(a), Some(b)) => Some(a.max(b)),
+        (a, b) => a.or(b),
     }
-    let z = normal_dist::upper_quantile((1.0 - level) / 2.0);
-    let now = e.sizes.per_side().max(2) as f64;
-    let needed = (now * (z * se / t).powi(2)).ceil();
-    (needed > now && needed.is_finite()).then_some(needed.min(1e12) as u64)
 }
 
 /// A number in a sentence: four significant digits, without trailing zeros.
@@ -284,7 +364,7 @@ pub fn num(x: f64) -> String {
 }
 
 /// The verdict in words, for a person reading a CI log.
-fn reason(e: &Evidence, d: &Decision) -> String {
+fn reason(e: &Evidence, d: &Decision, reading: Reading) -> String {
     let name = e.statistic.replace('_', " ");
     let what = match e.comparison.contrast {
         Contrast::Difference => format!("the candidate's {name} minus the baseline's"),
@@ -300,22 +380,36 @@ fn reason(e: &Evidence, d: &Decision) -> String {
     let band = format!("the tolerance band [{}, {}]", num(d.band.0), num(d.band.1));
     let better = format!("{} is better", e.comparison.better);
     let head = format!("{what} is {}; {interval}", num(e.reader.estimate));
-    match d.verdict {
-        Verdict::Regression => format!("{head} lies wholly beyond {band} on the worse side ({better})."),
-        Verdict::Improvement => format!("{head} lies wholly beyond {band} on the better side ({better})."),
-        Verdict::Equivalent => format!("{head} lies wholly inside {band}: any change is within the tolerance."),
-        Verdict::Inconclusive if d.floor > 1.0 - d.level => format!(
-            "{head}, but with {} and {} runs no arrangement of the runs is rarer than {} (two-sided), so the data cannot decide at {}%: gather more runs.",
-            e.sizes.baseline,
-            e.sizes.candidate,
+    let worse = match (d.lower > d.band.1, e.comparison.better) {
+        (true, Better::Lower) | (false, Better::Higher) => "worse",
+        _ => "better",
+    };
+    let unit = if e.sizes.paired { "pairs" } else { "runs per side" };
+    let more = d.runs_needed.map_or(String::new(), |n| format!(" About {n} {unit} would decide."));
+    match d.why {
+        Why::Beyond => format!("{head} lies wholly beyond {band} on the {worse} side ({better})."),
+        Why::Inside => format!("{head} lies wholly inside {band}: any change is within the tolerance."),
+        Why::TooFewRuns => format!(
+            "{head}, but {} no arrangement of the runs is rarer than {} (two-sided), so the data cannot decide at {}%.{more}",
+            few_runs(e.sizes),
             num(d.floor),
-            num(100.0 * d.level)
+            num(100.0 * d.level.max(reading.equivalence_level))
         ),
-        Verdict::Inconclusive => {
-            let more = d.runs_needed.map_or(String::new(), |n| {
-                format!(" About {n} runs per side would narrow the interval to the tolerance at this noise.")
-            });
-            format!("{head} overlaps {band}, so the data cannot tell yet.{more}")
-        }
+        Why::HeldByFamily => format!(
+            "{head} lies beyond {band} on the {worse} side ({better}), but Holm's step-down over the family stopped at a comparison with a smaller p-value, so no change is claimed here (p = {}).",
+            num(d.p_value)
+        ),
+        Why::NotInsideAtFamilyLevel => format!(
+            "{head}, read at the family's level for equivalence, reaches beyond {band}, so equivalence is not shown and the data cannot tell yet.{more}"
+        ),
+        Why::Overlaps => format!("{head} overlaps {band}, so the data cannot tell yet.{more}"),
+    }
+}
+
+/// The runs of a comparison, for a sentence about their floor.
+pub fn few_runs(sizes: Sizes) -> String {
+    match sizes.paired {
+        true => format!("with {} pairs, whose signs can fall in 2^{} ways,", sizes.baseline, sizes.baseline),
+        false => format!("with {} baseline and {} candidate runs,", sizes.baseline, sizes.candidate),
     }
 }

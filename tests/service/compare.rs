@@ -367,7 +367,22 @@ async fn too_few_runs_are_inconclusive_however_large_the_shift() {
     assert!(warning_codes(&v).contains(&"too_few_runs".to_string()), "{v}");
     assert_eq!(v["decision"]["floor"], 0.1);
     assert_eq!(v["decision"]["p_value"], 0.1, "never below the floor: {v}");
-    assert!(v["verdict_reason"].as_str().unwrap().contains("with 3 and 3 runs"), "{v}");
+    assert!(
+        v["verdict_reason"]
+            .as_str()
+            .unwrap()
+            .contains("with 3 baseline and 3 candidate runs"),
+        "{v}"
+    );
+    // Four a side reach 2 / C(8, 4) = 0.029 ≤ 0.05: the runs needed, said in the reason.
+    assert_eq!(v["decision"]["runs_needed"], 4, "{v}");
+    assert!(
+        v["verdict_reason"]
+            .as_str()
+            .unwrap()
+            .contains("About 4 runs per side would decide."),
+        "{v}"
+    );
     check_decision(&v, 0.1);
     // Five runs a side reach 2 / C(10, 5) = 0.0079, and the same shift is a regression.
     let five = json!({"baseline": [20.1, 20.4, 19.8, 20.0, 20.3], "candidate": [30.2, 29.7, 30.5, 30.0, 29.9], "seed": 5});
@@ -378,6 +393,8 @@ async fn too_few_runs_are_inconclusive_however_large_the_shift() {
     // Five pairs reach only 2·2⁻⁵ = 0.0625; six pairs 0.03125.
     let v = ok(compare(&app, with(five, "paired", json!(true))).await);
     assert_eq!(v["verdict"], "inconclusive", "{v}");
+    assert_eq!(v["decision"]["runs_needed"], 6, "{v}");
+    assert!(v["verdict_reason"].as_str().unwrap().contains("with 5 pairs"), "{v}");
     assert!(warning_codes(&v).contains(&"too_few_runs".to_string()), "{v}");
     check_decision(&v, 0.0625);
     let six = json!({"baseline": [20.1, 20.4, 19.8, 20.0, 20.3, 20.6], "candidate": [30.2, 29.7, 30.5, 30.0, 29.9, 30.4],
@@ -766,6 +783,30 @@ async fn holm_steps_down_the_ordered_p_values_and_claims_what_bonferroni_does_an
 }
 
 #[tokio::test]
+async fn a_change_held_back_by_holm_says_so_and_not_that_its_interval_overlaps() {
+    let app = TestApp::spawn().await;
+    // Two slight slowdowns whose p-values both lie between α/2 and α: the smaller fails
+    // Holm's first step (α/2), so the step-down stops, and the larger, whose own 95 % interval
+    // lies beyond the band, is held back by the family.
+    let job = |shift: f64| json!({"kind": "compare", "baseline": BASELINE, "candidate": shifted(shift, 1.0), "seed": 20, "methods": ["percentile"]});
+    let (s, _, v) = app
+        .post("/v1/batch", &json!({"jobs": [job(1.35), job(1.4)], "multiplicity": "holm"}))
+        .await;
+    assert_eq!(s, 200, "{v}");
+    let (held, first) = (&v["results"][0]["ok"], &v["results"][1]["ok"]);
+    let (p_held, p_first) = (num(held, "/decision/p_value"), num(first, "/decision/p_value"));
+    assert!(ALPHA / 2.0 < p_first && p_first < p_held && p_held <= ALPHA, "{p_first} {p_held}");
+    for r in [held, first] {
+        assert_eq!(r["verdict"], "inconclusive", "{r}");
+    }
+    assert_eq!(held["decision"]["level"], 0.95);
+    assert!(num(held, "/decision/lower") > 1.0, "its own interval lies beyond the band: {held}");
+    let reason = held["verdict_reason"].as_str().unwrap();
+    assert!(reason.contains("Holm's step-down") && !reason.contains("overlaps"), "{reason}");
+    assert!(first["verdict_reason"].as_str().unwrap().contains("overlaps"), "{first}");
+}
+
+#[tokio::test]
 async fn a_comparison_alone_and_in_an_uncorrected_batch_are_identical() {
     let app = TestApp::spawn().await;
     let none = run_family(&app, "none").await;
@@ -804,4 +845,23 @@ async fn a_ratio_needs_a_positive_baseline_and_a_candidate_of_0_or_more() {
     )
     .await);
     assert_eq!(v["verdict"], "improvement", "lower is better, and the candidate is lower: {v}");
+    // A positive baseline mean whose resamples cross 0: those resamples have no ratio and are
+    // left out (counted and warned), never read as a huge change of the opposite sign.
+    let v = ok(compare(
+        &app,
+        json!({"baseline": [-5, 1, 2, 3, 4, 5, -4, 2.5], "candidate": [2, 3, 2.5, 3.5, 2, 3, 2.5, 3], "resamples": 4000, "seed": 4}),
+    )
+    .await);
+    let undefined = v["contrast"]["diagnostics"]["undefined_replicates"].as_u64().unwrap();
+    assert!(undefined > 0, "{v}");
+    let codes: Vec<&Value> = v["contrast"]["diagnostics"]["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|w| &w["code"])
+        .collect();
+    assert!(codes.contains(&&json!("undefined_replicates")), "{v}");
+    for i in v["contrast"]["intervals"].as_array().unwrap() {
+        assert!(num(i, "/lower") >= 0.0, "no negative ratio: {i}");
+    }
 }

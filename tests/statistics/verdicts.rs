@@ -322,18 +322,30 @@ fn under_no_change_false_regressions_and_improvements_stay_near_the_nominal_rate
     });
     let (reg, imp) = (share(&verdicts, Verdict::Regression), share(&verdicts, Verdict::Improvement));
     eprintln!("no change, ratio of medians, lognormal runs, percentile: regression {reg:.4}, improvement {imp:.4} of {N}");
-    // Nominal 2.5 % a side. Means: binomial se √(0.025·0.975/10 000) = 0.0016, 4 of them
-    // 0.0062: at most 3.1 %. Medians: se over 2000 is 0.0035, 4 of them 0.014: at most 3.9 %.
-    for (name, method, reg, imp, n) in
-        rates
-            .iter()
-            .map(|(m, r, i)| ("means", *m, *r, *i, n))
-            .chain([("medians", Method::Percentile, reg, imp, N)])
-    {
-        let limit = 0.025 + 4.0 * binomial_se(0.025, n);
-        assert!(reg <= limit, "{name}, {method}: false regressions {reg} > {limit}");
-        assert!(imp <= limit, "{name}, {method}: false improvements {imp} > {limit}");
+    // Each rate against what theory predicts for it, from both sides, and never far above
+    // nominal. Studentized: nominal 2.5 % a side. Percentile: P(T₅₈ > 1.96·√(29/30)) = 0.0294
+    // a side (the module's note; scipy.stats.t.sf, scipy 1.x). Binomial se over 10 000 at
+    // 0.025 is 0.0016, at 0.0294 is 0.0017: 4 of them 0.0062 and 0.0068.
+    for (method, reg, imp) in rates {
+        let expected = match method {
+            Method::Percentile => 0.0294,
+            _ => 0.025,
+        };
+        let tolerance = 4.0 * binomial_se(expected, n);
+        for (what, rate) in [("regressions", reg), ("improvements", imp)] {
+            assert!(
+                (rate - expected).abs() <= tolerance,
+                "means, {method}: false {what} {rate}, want {expected} ± {tolerance}"
+            );
+        }
     }
+    // Medians: the median of 30 runs takes few distinct values under resampling, so its
+    // percentile interval is conservative (its tails hold whole atoms of probability); only
+    // the nominal bound is asserted: se over 2000 at 0.025 is 0.0035, 4 of them 0.014, so at
+    // most 3.9 %.
+    let limit = 0.025 + 4.0 * binomial_se(0.025, N);
+    assert!(reg <= limit, "medians: false regressions {reg} > {limit}");
+    assert!(imp <= limit, "medians: false improvements {imp} > {limit}");
 }
 
 #[test]
