@@ -1,6 +1,6 @@
 //! The reports of `bandsaw check`: a compact text for a CI log, a Markdown table for a
-//! pull-request comment or job summary, JUnit XML for a CI system's test view, and the JSON of
-//! the batch response. Each is built from the response alone (the same whether it came from
+//! pull-request comment or job summary (both with what needs action first), JUnit XML for a CI
+//! system's test view, and the JSON of the batch response (both in the suite's order). Each is built from the response alone (the same whether it came from
 //! this process or a server), so the same seed gives the same report either way.
 
 use quick_xml::events::{BytesDecl, BytesText, Event};
@@ -116,6 +116,23 @@ pub fn rows<'a>(response: &Value, names: &[&'a str]) -> Vec<Row<'a>> {
         .collect()
 }
 
+/// The order a person reads a suite's rows in: what needs action first (regressions, then
+/// refused jobs, then what is undecided), the suite's own order within each.
+fn by_urgency<'a, 'r>(rows: &'r [Row<'a>]) -> Vec<&'r Row<'a>> {
+    let rank = |r: &Row| match r {
+        Row::Decided(_, c) => match c.verdict {
+            Verdict::Regression => 0,
+            Verdict::Inconclusive => 2,
+            Verdict::Improvement => 3,
+            Verdict::Equivalent => 4,
+        },
+        Row::Failed(..) => 1,
+    };
+    let mut sorted: Vec<&Row> = rows.iter().collect();
+    sorted.sort_by_key(|r| rank(r));
+    sorted
+}
+
 /// A contrast for a person: a ratio as a signed percentage change, a difference as a signed
 /// number in data units.
 fn change(contrast: Contrast, x: f64) -> String {
@@ -162,7 +179,7 @@ fn setup_line(rows: &[Row]) -> Option<String> {
             };
             let paired = if cmp.paired { ", runs paired" } else { "" };
             Some(format!(
-                "{} of {contrast}, {} is better, changes within {tolerance} count as none{paired}",
+                "{}: {contrast}, {} is better, changes within {tolerance} count as none{paired}",
                 statistic_words(&c.contrast.statistic),
                 cmp.better
             ))
@@ -240,7 +257,7 @@ pub fn text(response: &Value, names: &[&str], seed: u64, exit: Exit) -> String {
         out += &format!("  {setup}\n");
     }
     out += &format!("  {}\n\n", family_line(response, decided));
-    for row in &rows {
+    for row in by_urgency(&rows) {
         out += &text_row(row, width);
     }
     out += &format!("\n{} -> exit {} ({})\n", tally(&rows), exit as i32, exit_words(exit));
@@ -313,12 +330,12 @@ pub fn markdown(response: &Value, names: &[&str], seed: u64, exit: Exit) -> Stri
     }
     out += "| verdict | benchmark | change | interval | level | runs (baseline / candidate) |\n";
     out += "| --- | --- | ---: | --- | ---: | ---: |\n";
-    for row in &rows {
+    for row in by_urgency(&rows) {
         out += &markdown_row(row);
     }
     out += &format!("\n{} (exit {}: {}). Seed {seed}.\n", tally(&rows), exit as i32, exit_words(exit));
-    let reasons: Vec<String> = rows
-        .iter()
+    let reasons: Vec<String> = by_urgency(&rows)
+        .into_iter()
         .filter_map(|r| match r {
             Row::Decided(n, c) if c.verdict != Verdict::Equivalent => Some(format!("- `{}`: {}", cell(n), cell(&c.verdict_reason))),
             Row::Failed(n, d, e) => Some(format!(

@@ -304,7 +304,7 @@ pub fn decide(e: &Evidence, reading: Reading) -> Decision {
         why,
         reason: String::new(),
     };
-    d.reason = reason(e, &d, reading);
+    d.reason = reason(e, &d);
     d
 }
 
@@ -321,9 +321,12 @@ fn classify(c: &Comparison, floor: f64, reading: Reading, change: &Endpoints, eq
         Side::Worse => (Verdict::Regression, Why::Beyond, false),
         Side::Better => (Verdict::Improvement, Why::Beyond, false),
         _ if at_equal == Side::Inside && enough(reading.equivalence_level) => (Verdict::Equivalent, Why::Inside, true),
-        _ if !enough(reading.change_level.max(reading.equivalence_level)) => undecided(Why::TooFewRuns),
+        _ if at_equal == Side::Inside || (at_change == Side::Inside && !enough(reading.equivalence_level)) => {
+            (Verdict::Inconclusive, Why::TooFewRuns, true)
+        }
         Side::Inside => (Verdict::Inconclusive, Why::NotInsideAtFamilyLevel, true),
-        Side::Edge => undecided(Why::Overlaps),
+        _ if !enough(reading.change_level) => undecided(Why::TooFewRuns),
+        _ => undecided(Why::Overlaps),
     }
 }
 
@@ -364,7 +367,7 @@ pub fn num(x: f64) -> String {
 }
 
 /// The verdict in words, for a person reading a CI log.
-fn reason(e: &Evidence, d: &Decision, reading: Reading) -> String {
+fn reason(e: &Evidence, d: &Decision) -> String {
     let name = e.statistic.replace('_', " ");
     let what = match e.comparison.contrast {
         Contrast::Difference => format!("the candidate's {name} minus the baseline's"),
@@ -393,7 +396,7 @@ fn reason(e: &Evidence, d: &Decision, reading: Reading) -> String {
             "{head}, but {} no arrangement of the runs is rarer than {} (two-sided), so the data cannot decide at {}%.{more}",
             few_runs(e.sizes),
             num(d.floor),
-            num(100.0 * d.level.max(reading.equivalence_level))
+            num(100.0 * d.level)
         ),
         Why::HeldByFamily => format!(
             "{head} lies beyond {band} on the {worse} side ({better}), but Holm's step-down over the family stopped at a comparison with a smaller p-value, so no change is claimed here (p = {}).",
