@@ -18,7 +18,7 @@ use super::rules::Rule;
 use super::token::{self, TokenBody, TokenError};
 use crate::config::Limits;
 use crate::engine::data::Sample;
-use crate::engine::driver::{self, Outcome, Prepared, RunError, Which};
+use crate::engine::driver::{self, Outcome, Prepared, RunError, SampleProblems, Which};
 use crate::engine::executor::Budget;
 use crate::engine::job::{Resampled, Samples};
 use crate::engine::plan::ResampleCount;
@@ -179,12 +179,14 @@ pub fn prepare(
 fn refusal(e: RunError, time_limit_ms: u64, places: &[(&str, DataForm)]) -> Problem {
     let invalid = |pointer: &str, rule: Rule, message: String| Problem::invalid(vec![FieldError::by_rule(pointer, rule, message)]);
     match e {
-        RunError::Data { which, problems } => {
-            let Some((at, form)) = places.get(usize::from(which == Which::Candidate)).or(places.first()) else {
-                return Problem::internal("the data was refused after it had been accepted; this is a bug, please report it");
-            };
+        RunError::Data(samples) => {
             let mut errs = Errors::default();
-            data::report(*form, problems, at, "/statistic", &mut errs);
+            for SampleProblems { which, problems } in samples {
+                let Some((at, form)) = places.get(usize::from(which == Which::Candidate)).or(places.first()) else {
+                    return Problem::internal("the data was refused after it had been accepted; this is a bug, please report it");
+                };
+                data::report(*form, problems, at, "/statistic", &mut errs);
+            }
             Problem::invalid(errs.0)
         }
         RunError::Scheme(e @ SchemeError::TooManyToEnumerate { .. }) => invalid(

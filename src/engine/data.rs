@@ -89,7 +89,7 @@ pub enum DataError {
     TooFewRows { statistic: &'static str, needed: usize },
     #[error("the {statistic} of this data is undefined")]
     Undefined { statistic: &'static str },
-    #[error("has {candidate} rows and the baseline {baseline}; paired samples are rows given one by one (not aggregated), the same number on both sides")]
+    #[error("paired samples are rows given one by one (not aggregated), the same number on both sides; the baseline has {baseline} rows (or distinct values) and the candidate {candidate}")]
     NotPaired { baseline: usize, candidate: usize },
     #[error("the {statistic} of the baseline is {baseline} and of the candidate {candidate}: a ratio needs the baseline's above 0 and the candidate's 0 or more (a ratio of negative numbers reads backwards); compare with \"contrast\": \"difference\"")]
     RatioNotPositive {

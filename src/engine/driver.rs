@@ -26,11 +26,26 @@ pub enum Which {
     Candidate,
 }
 
+/// What is wrong with one sample's data.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SampleProblems {
+    pub which: Which,
+    pub problems: Vec<DataError>,
+}
+
+impl RunError {
+    /// The refusal of one sample's data.
+    pub fn data(which: Which, problems: Vec<DataError>) -> RunError {
+        RunError::Data(vec![SampleProblems { which, problems }])
+    }
+}
+
 /// Why a job produced no result.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum RunError {
+    /// Each refused sample with its problems (both samples of a comparison at once).
     #[error("the data cannot be used")]
-    Data { which: Which, problems: Vec<DataError> },
+    Data(Vec<SampleProblems>),
     #[error("{0}")]
     Scheme(SchemeError),
     #[error("the estimated work is {needed:.3e} row-draws, above the limit of {limit:.3e}")]
@@ -93,8 +108,8 @@ pub struct Prepared {
 }
 
 /// Bind the statistic to one sample and check that it is defined there.
-fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<(Arm, f64), RunError> {
-    let data = |problems| RunError::Data { which, problems };
+fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<Bound, RunError> {
+    let data = |problems| RunError::data(which, problems);
     let estimator = job.statistic.build(&part.sample).map_err(data)?;
     let estimate = estimator.estimate();
     if !estimate.is_finite() {
@@ -117,21 +132,42 @@ fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<(Arm, f6
     ))
 }
 
+/// A sample's arm with the statistic's estimate on it.
+type Bound = (Arm, f64);
+
+/// Bind the statistic to both samples of a comparison, refusing the problems of both at once.
+fn arms(job: &Job, baseline: &Resampled, candidate: &Resampled) -> Result<(Bound, Bound), RunError> {
+    match (arm(job, baseline, Which::Baseline, 0), arm(job, candidate, Which::Candidate, 1)) {
+        (Ok(b), Ok(c)) => Ok((b, c)),
+        (Err(RunError::Data(mut b)), Err(RunError::Data(c))) => {
+            b.extend(c);
+            Err(RunError::Data(b))
+        }
+        (Err(e), _) | (_, Err(e)) => Err(e),
+    }
+}
+
 /// What is resampled, the estimate, and for two samples each one's estimate.
 type Laid = (Target, f64, Option<(f64, f64)>);
 
 /// Bind the statistic to two samples whose rows are pairs, resampled together by the
 /// baseline's scheme.
 fn paired(job: &Job, baseline: &Resampled, candidate: &Resampled, contrast: Contrast) -> Result<Laid, RunError> {
-    let (b, eb) = arm(job, baseline, Which::Baseline, 0)?;
-    let (c, ec) = arm(job, candidate, Which::Candidate, 1)?;
+    let ((b, eb), (c, ec)) = arms(job, baseline, candidate)?;
     let (nb, nc) = (baseline.sample.rows(), candidate.sample.rows());
-    let pair = Pair::new(b.estimator, c.estimator, contrast).ok_or_else(|| RunError::Data {
-        which: Which::Candidate,
-        problems: vec![DataError::NotPaired {
-            baseline: nb,
-            candidate: nc,
-        }],
+    // The refusal points at the sample to fix: an aggregated one, else the candidate.
+    let which = match b.estimator.unit_of_row() {
+        None => Which::Baseline,
+        Some(_) => Which::Candidate,
+    };
+    let pair = Pair::new(b.estimator, c.estimator, contrast).ok_or_else(|| {
+        RunError::data(
+            which,
+            vec![DataError::NotPaired {
+                baseline: nb,
+                candidate: nc,
+            }],
+        )
     })?;
     let units = pair.units();
     let rows = match job.resamples {
@@ -153,14 +189,14 @@ fn check_ratio(job: &Job, estimate: f64, sample_estimates: Option<(f64, f64)>) -
     );
     match sample_estimates {
         Some((baseline, candidate)) if ratio && !(baseline > 0.0 && candidate >= 0.0 && crate::engine::summary::defined(estimate)) => {
-            Err(RunError::Data {
-                which: Which::Baseline,
-                problems: vec![DataError::RatioNotPositive {
+            Err(RunError::data(
+                Which::Baseline,
+                vec![DataError::RatioNotPositive {
                     statistic: job.statistic.name(),
                     baseline,
                     candidate,
                 }],
-            })
+            ))
         }
         _ => Ok(()),
     }
@@ -179,8 +215,7 @@ pub fn prepare(job: Job) -> Result<Prepared, RunError> {
             contrast,
             paired: false,
         } => {
-            let (b, eb) = arm(&job, baseline, Which::Baseline, 0)?;
-            let (c, ec) = arm(&job, candidate, Which::Candidate, 1)?;
+            let ((b, eb), (c, ec)) = arms(&job, baseline, candidate)?;
             let target = Target::Two {
                 baseline: b,
                 candidate: c,

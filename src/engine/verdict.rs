@@ -74,7 +74,8 @@ impl Comparison {
     pub fn band(&self) -> (f64, f64) {
         let t = self.tolerance;
         match self.contrast {
-            Contrast::Difference => (-t, t),
+            // 0 − t, not −t: a tolerance of 0 gives the band [0, 0], not [−0, 0].
+            Contrast::Difference => (0.0 - t, t),
             Contrast::Ratio => (1.0 / (1.0 + t), 1.0 + t),
         }
     }

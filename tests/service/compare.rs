@@ -461,6 +461,22 @@ async fn without_resamples_small_comparisons_are_enumerated_exactly() {
 // ---------------------------------------------------------------------------------------------
 
 #[tokio::test]
+async fn the_data_problems_of_both_samples_are_reported_at_once() {
+    let app = TestApp::spawn().await;
+    let v = invalid(
+        compare(
+            &app,
+            json!({"baseline": [0, 1, 2, 1], "candidate": [0, 3, 1, 1], "statistic": "proportion"}),
+        )
+        .await,
+        &["/baseline/2", "/candidate/1"],
+    );
+    for at in ["/baseline/2", "/candidate/1"] {
+        assert_eq!(rule_at(&v, at).as_deref(), Some("statistic_domain"), "{v}");
+    }
+}
+
+#[tokio::test]
 async fn paired_runs_are_one_column_of_the_same_length_on_each_side() {
     let app = TestApp::spawn().await;
     let v = invalid(
@@ -472,14 +488,20 @@ async fn paired_runs_are_one_column_of_the_same_length_on_each_side() {
         &["/candidate"],
     );
     assert_eq!(rule_at(&v, "/candidate").as_deref(), Some("paired_rows"), "{v}");
-    assert!(message_at(&v, "/candidate").contains("3 rows"), "{v}");
-    // Aggregated runs have no rows to pair.
-    let agg = json!({"values": [1, 2, 3], "counts": [2, 2, 2]});
-    let v = invalid(
-        compare(&app, json!({"baseline": agg, "candidate": agg, "paired": true})).await,
-        &["/candidate"],
+    assert!(
+        message_at(&v, "/candidate").contains("the baseline has 4 rows (or distinct values) and the candidate 3"),
+        "{v}"
     );
-    assert_eq!(rule_at(&v, "/candidate").as_deref(), Some("paired_rows"), "{v}");
+    // Aggregated runs have no rows to pair: the refusal points at the aggregated sample.
+    let agg = json!({"values": [1, 2, 3], "counts": [2, 2, 2]});
+    let rows = json!([1, 1, 2, 2, 3, 3]);
+    for (baseline, candidate, at) in [(&agg, &agg, "/baseline"), (&agg, &rows, "/baseline"), (&rows, &agg, "/candidate")] {
+        let v = invalid(
+            compare(&app, json!({"baseline": baseline, "candidate": candidate, "paired": true})).await,
+            &[at],
+        );
+        assert_eq!(rule_at(&v, at).as_deref(), Some("paired_rows"), "{v}");
+    }
     // The same runs unpaired are fine.
     ok(compare(
         &app,

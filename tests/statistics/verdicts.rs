@@ -544,13 +544,13 @@ fn paired_samples_of_unequal_lengths_are_refused() {
     let refused = driver::prepare(job(b, c, &setup, 1)).err();
     assert_eq!(
         refused,
-        Some(RunError::Data {
-            which: Which::Candidate,
-            problems: vec![DataError::NotPaired {
+        Some(RunError::data(
+            Which::Candidate,
+            vec![DataError::NotPaired {
                 baseline: 30,
                 candidate: 29
             }],
-        })
+        ))
     );
 }
 
