@@ -62,7 +62,9 @@ pub fn acceleration(values: &[f64], multiplicity: &[f64]) -> f64 {
 /// sample k and n_k = Σ_i c_ki (Davison & Hinkley 1997, §3.2 and §5.3, the several-sample form
 /// of the acceleration; Efron & Tibshirani 1993, ch. 14; from memory). With one sample it is
 /// [`acceleration`]. The influences of all samples are divided by their largest magnitude
-/// first, as there (a does not change), so no cube overflows.
+/// first, as there (a does not change), so no cube overflows. [`acceleration`] is not written
+/// as this with one sample: the two agree to rounding (a unit test holds them together), but
+/// not bit for bit, and one-sample responses are pinned bit for bit.
 pub fn acceleration_of_samples(samples: &[(&[f64], &[f64])]) -> f64 {
     // U/n = (n − 1)/n · (θ̄ − θ₍ᵢ₎) for every observation of every sample.
     let influence: Vec<(Vec<f64>, &[f64])> = samples
