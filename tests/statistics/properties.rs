@@ -232,6 +232,7 @@ fn constant_data_gives_zero_width_intervals_and_a_warning() {
         stat("geometric_mean"),
         stat("coefficient_of_variation"),
         stat("proportion"),
+        spec(json!({"name": "exceedance", "threshold": 0.5})),
     ];
     for stat in stats {
         let o = run(&job(column(vec![1.0; 30]), stat.clone(), 500));

@@ -97,6 +97,53 @@ fn proportion_standard_error_is_binomial() {
 }
 
 #[test]
+fn exceedance_is_the_binomial_share_above_its_threshold() {
+    // The share of requests slower than a 300 ms objective (invented: 150 request latencies,
+    // 24 of them above 300). Only the indicator of "above" matters, so the resampled count is
+    // Binomial(n, p̂) under iid and the ideal standard error is √(p̂(1 − p̂)/n) (docs/references.md,
+    // as for a proportion). Values exactly at the threshold do not count.
+    let x: Vec<f64> = (0..150)
+        .map(|i| {
+            if i < 24 {
+                301.0 + i as f64 * 17.0
+            } else if i < 30 {
+                300.0
+            } else {
+                40.0 + i as f64
+            }
+        })
+        .collect();
+    let exceedance = spec(json!({"name": "exceedance", "threshold": 300}));
+    let p: f64 = 24.0 / 150.0;
+    let want = (p * (1.0 - p) / 150.0).sqrt();
+    let o = run(&job(column(x.clone()), exceedance.clone(), 100_000, 8));
+    assert_eq!(o.estimate, p);
+    // Binomial(150, 0.16) shares: kurtosis 3 + (1 − 6p(1 − p))/(np(1 − p)) = 3.02 < 3.1, so the
+    // relative MC sd of the standard error is below √(2.1/(4B)) = 0.23 %; 4 of them 0.92 %.
+    let tol = 4.0 * rel_se_of_se(&o, 3.1) * want;
+    assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
+    // Exact enumeration of a small sample: an identity (1e-12).
+    let small = vec![120.0, 250.0, 310.0, 90.0, 400.0, 280.0, 305.0, 150.0];
+    let mut j = job(column(small), exceedance.clone(), 0, 1);
+    j.resamples = Resamples::Exact;
+    let o = run(&j);
+    let want_small = (0.375_f64 * 0.625 / 8.0).sqrt();
+    assert!(
+        (o.standard_error - want_small).abs() < 1e-12,
+        "{} vs {want_small}",
+        o.standard_error
+    );
+    // The same latencies aggregated: the same replicate distribution, so the same se within
+    // the same tolerance.
+    let agg = aggregated(vec![40.0, 300.0, 301.0], vec![120, 6, 24]);
+    let mut j = job(agg, exceedance, 100_000, 8);
+    j.methods = vec![Method::Studentized];
+    let o = run(&j);
+    assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
+    assert_eq!(o.diagnostics.studentized_standard_error.map(|s| s.name()), Some("analytic"));
+}
+
+#[test]
 fn bayesian_bootstrap_variance_of_the_mean_is_sigma_squared_over_n_plus_1() {
     // Rubin (1981): under Dirichlet(1,…,1) weights the posterior variance of the mean is
     // σ̂²/(n + 1) (plug-in σ̂²).

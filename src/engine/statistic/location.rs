@@ -93,6 +93,57 @@ impl ColumnSpec for ProportionSpec {
     }
 }
 
+crate::bounded_number! {
+    /// A threshold in the data's units: any number of at most 1e300 in magnitude.
+    pub struct Threshold where -1e300 <= x <= 1e300, "a number of at most 1e300 in magnitude";
+}
+
+/// The share of values above a threshold.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
+#[serde(deny_unknown_fields)]
+pub struct ExceedanceSpec {
+    /// Values strictly above it count (the share of requests slower than an objective of 300
+    /// ms: `"threshold": 300`). Required.
+    #[schema(value_type = f64)]
+    pub threshold: Threshold,
+}
+
+impl ColumnSpec for ExceedanceSpec {
+    const ANALYTIC_SE: bool = true;
+    fn build(&self, _: &ColumnLayout, values: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+        let t = self.threshold.get();
+        Ok(Box::new(Exceedance {
+            above: values.iter().map(|v| if *v > t { 1.0 } else { 0.0 }).collect(),
+        }))
+    }
+}
+
+/// The share of values above a threshold: the mean of each unit's indicator, so its resampled
+/// count is binomial under `iid` and its standard error √(p̂(1 − p̂)/n).
+pub struct Exceedance {
+    /// 1 for a unit above the threshold, else 0.
+    above: Vec<f64>,
+}
+
+impl ColumnStatistic for Exceedance {
+    fn evaluate(&self, _: &ColumnLayout, w: &[f64], _: &mut Scratch) -> f64 {
+        weighted_mean(&self.above, w)
+    }
+    fn jackknife_closed(&self, c: &ColumnLayout) -> Option<Vec<f64>> {
+        Some(jackknife_means(&self.above, &c.base))
+    }
+    fn analytic_se(&self, _: &ColumnLayout, w: &[f64]) -> Option<f64> {
+        binomial_se(&self.above, w)
+    }
+}
+
+/// √(p̂(1 − p̂)/n) for the weighted share p̂ of indicators.
+fn binomial_se(indicator: &[f64], w: &[f64]) -> Option<f64> {
+    let p = weighted_mean(indicator, w);
+    let total: f64 = w.iter().sum();
+    Some((p * (1.0 - p) / total).sqrt())
+}
+
 pub(crate) fn weighted_mean(x: &[f64], w: &[f64]) -> f64 {
     let (mut sw, mut sx) = (0.0, 0.0);
     for (xi, wi) in x.iter().zip(w) {
@@ -152,9 +203,7 @@ impl ColumnStatistic for Proportion {
     }
     /// √(p̂(1 − p̂)/n), the binomial standard error.
     fn analytic_se(&self, c: &ColumnLayout, w: &[f64]) -> Option<f64> {
-        let p = weighted_mean(&c.x, w);
-        let total: f64 = w.iter().sum();
-        Some((p * (1.0 - p) / total).sqrt())
+        binomial_se(&c.x, w)
     }
 }
 
