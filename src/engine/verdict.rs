@@ -242,6 +242,10 @@ pub enum Why {
     /// The interval lies beyond the band, but a family's step-down stopped before this
     /// comparison.
     HeldByFamily,
+    /// The interval lies beyond (or inside) the band only by its most extreme replicates: the
+    /// p-value of a change (or of equivalence), extrapolated beyond the replicates'
+    /// resolution, does not reach the level.
+    Unresolved,
     /// The interval at the level of a change lies inside the band, but not the one at the
     /// family's stricter level of equivalence.
     NotInsideAtFamilyLevel,
@@ -261,22 +265,68 @@ pub struct Evidence<'a> {
 
 /// The p-value of a change of a comparison: the interval's inversion ([`p_change`]), but never
 /// below the floor of what a distribution-free comparison of its runs can reach (the bootstrap
-/// of a few runs has tails too short to claim more). What a family's correction orders by.
+/// of a few runs has tails too short to claim more). B drawn replicates resolve a p-value only
+/// down to 2/(B + 1); below that the tail is extrapolated ([`t_tail`]), so that a suite of
+/// hundreds of benchmarks under Holm or Bonferroni can still claim a clear change without
+/// millions of resamples. What a family's correction orders by.
 pub fn p_value(e: &Evidence) -> f64 {
-    p_change(e.reader, e.method, &e.comparison).max(least_p(e))
+    resolved(e, p_change(e.reader, e.method, &e.comparison), false)
 }
 
-/// The least p-value a comparison can report: the floor of its runs, and for B drawn
-/// replicates read by their quantiles 2/(B + 1), below which an interval's tail holds less than
-/// one replicate and its endpoint is the extreme replicate, not a quantile (an enumeration and
-/// the normal interval have no such limit).
-fn least_p(e: &Evidence) -> f64 {
+/// The smallest p-value B drawn replicates read by their quantiles resolve: 2/(B + 1), below
+/// which an interval's tail holds less than one replicate and its endpoint is the extreme
+/// replicate, not a quantile (an enumeration and the normal interval have no such limit).
+fn resolution(e: &Evidence) -> f64 {
     let dist = &e.reader.dist;
-    let resolution = match e.method == Method::Normal || dist.is_exact() {
+    match e.method == Method::Normal || dist.is_exact() {
         true => 0.0,
         false => 2.0 / (dist.len() as f64 + 1.0),
+    }
+}
+
+/// The two-sided tail of Student's t at the distance from the estimate to the nearer edge of
+/// the band (outside it for a change, inside it for equivalence), in bootstrap standard
+/// errors, with n₁ + n₂ − 2 degrees of freedom (n − 1 for pairs): the usual reference
+/// distribution of a two-sample t statistic (common practice), and heavier-tailed than the
+/// normal, so the extrapolation errs towards claiming less. 1 when the estimate is on the other
+/// side of the edge.
+fn t_tail(e: &Evidence, inside: bool) -> f64 {
+    use statrs::distribution::{ContinuousCDF, StudentsT};
+    let (lo, hi) = e.comparison.band();
+    let (estimate, se) = (e.reader.estimate, e.reader.standard_error);
+    let distance = match inside {
+        false => (estimate - hi).max(lo - estimate),
+        true => (estimate - lo).min(hi - estimate),
     };
-    e.sizes.floor().max(resolution)
+    if distance <= 0.0 {
+        return 1.0;
+    }
+    if se <= 0.0 {
+        return 0.0;
+    }
+    let s = e.sizes;
+    let df = match s.paired {
+        true => s.baseline as f64 - 1.0,
+        false => (s.baseline + s.candidate) as f64 - 2.0,
+    };
+    StudentsT::new(0.0, 1.0, df.max(1.0)).map_or(1.0, |t| 2.0 * t.sf(distance / se))
+}
+
+/// A p-value by inverting the interval, extrapolated by [`t_tail`] below the replicates'
+/// resolution, and never below the floor of the runs.
+fn resolved(e: &Evidence, inverted: f64, inside: bool) -> f64 {
+    let resolution = resolution(e);
+    let p = match inverted <= resolution {
+        true => resolution.min(t_tail(e, inside)),
+        false => inverted,
+    };
+    p.max(e.sizes.floor())
+}
+
+/// The p-value of equivalence: the smallest α at which the (1 − α) interval lies wholly
+/// inside the band, resolved as [`p_value`] is.
+pub fn equivalence_p_value(e: &Evidence) -> f64 {
+    resolved(e, p_equivalence(e.reader, e.method, &e.comparison), true)
 }
 
 /// Decide a comparison at a reading.
@@ -285,7 +335,8 @@ pub fn decide(e: &Evidence, reading: Reading) -> Decision {
     let floor = e.sizes.floor();
     let change = e.reader.interval(e.method, reading.change_level);
     let equal = e.reader.interval(e.method, reading.equivalence_level);
-    let (verdict, why, at_equivalence) = classify(c, floor, reading, &change, &equal);
+    let (p, p_equal) = (p_value(e), equivalence_p_value(e));
+    let (verdict, why, at_equivalence) = classify(c, (floor, p, p_equal), reading, &change, &equal);
     let (level, iv) = match at_equivalence {
         true => (reading.equivalence_level, equal),
         false => (reading.change_level, change),
@@ -298,8 +349,8 @@ pub fn decide(e: &Evidence, reading: Reading) -> Decision {
         lower: iv.lower,
         upper: iv.upper,
         band: c.band(),
-        p_value: p_value(e),
-        equivalence_p_value: p_equivalence(e.reader, e.method, c).max(least_p(e)),
+        p_value: p,
+        equivalence_p_value: p_equal,
         floor,
         runs_needed,
         why,
@@ -310,18 +361,31 @@ pub fn decide(e: &Evidence, reading: Reading) -> Decision {
 }
 
 /// The verdict, why, and whether it was read at the level of equivalence (else of a change),
-/// given where the intervals at those levels lie. Too few runs come first: whatever the
-/// intervals say, they cannot be trusted then.
-fn classify(c: &Comparison, floor: f64, reading: Reading, change: &Endpoints, equal: &Endpoints) -> (Verdict, Why, bool) {
+/// given where the intervals at those levels lie and the floor and p-value of a change. Too
+/// few runs come first: whatever the intervals say, they cannot be trusted then. A change is
+/// claimed only when its p-value agrees (beyond the replicates' resolution the interval's
+/// endpoints are extreme replicates, which may lie beyond the band when the p-value does not
+/// reach the level).
+fn classify(
+    c: &Comparison,
+    (floor, p, p_equal): (f64, f64, f64),
+    reading: Reading,
+    change: &Endpoints,
+    equal: &Endpoints,
+) -> (Verdict, Why, bool) {
     let enough = |level: f64| floor <= 1.0 - level;
     let (at_change, at_equal) = (c.side(change.lower, change.upper), c.side(equal.lower, equal.upper));
     let undecided = |why| (Verdict::Inconclusive, why, false);
     match at_change {
         Side::Worse | Side::Better if !enough(reading.change_level) => undecided(Why::TooFewRuns),
+        Side::Worse | Side::Better if p > 1.0 - reading.change_level => undecided(Why::Unresolved),
         Side::Worse | Side::Better if !reading.change_allowed => undecided(Why::HeldByFamily),
         Side::Worse => (Verdict::Regression, Why::Beyond, false),
         Side::Better => (Verdict::Improvement, Why::Beyond, false),
-        _ if at_equal == Side::Inside && enough(reading.equivalence_level) => (Verdict::Equivalent, Why::Inside, true),
+        _ if at_equal == Side::Inside && enough(reading.equivalence_level) && p_equal <= 1.0 - reading.equivalence_level => {
+            (Verdict::Equivalent, Why::Inside, true)
+        }
+        _ if at_equal == Side::Inside && enough(reading.equivalence_level) => (Verdict::Inconclusive, Why::Unresolved, true),
         _ if at_equal == Side::Inside || (at_change == Side::Inside && !enough(reading.equivalence_level)) => {
             (Verdict::Inconclusive, Why::TooFewRuns, true)
         }
@@ -399,8 +463,19 @@ fn reason(e: &Evidence, d: &Decision) -> String {
             num(d.floor),
             num(100.0 * d.level)
         ),
+        Why::Unresolved => {
+            let (side, p, claim) = match d.lower >= d.band.0 && d.upper <= d.band.1 {
+                true => ("inside", d.equivalence_p_value, "equivalence"),
+                false => ("beyond", d.p_value, "change"),
+            };
+            format!(
+                "{head} lies {side} {band} only by its most extreme resamples: its p-value of {claim}, {} (Student's t beyond what the resamples resolve), is above the {} this level needs, so no {claim} is claimed. More runs or more resamples would decide.",
+                num(p),
+                num(1.0 - d.level)
+            )
+        }
         Why::HeldByFamily => format!(
-            "{head} lies beyond {band} on the {worse} side ({better}), but Holm's step-down over the family stopped at a comparison with a smaller p-value, so no change is claimed here (p = {}).",
+            "{head} lies beyond {band} on the {worse} side ({better}), but Holm's step-down over the family stopped at a comparison with a smaller (or equal) p-value, so no change is claimed here (p = {}).",
             num(d.p_value)
         ),
         Why::NotInsideAtFamilyLevel => format!(

@@ -829,6 +829,36 @@ async fn a_change_held_back_by_holm_says_so_and_not_that_its_interval_overlaps()
 }
 
 #[tokio::test]
+async fn a_suite_of_sixty_under_holm_still_claims_a_clear_regression() {
+    let app = TestApp::spawn().await;
+    // 2000 resamples resolve p-values only down to 2/2001 ≈ 0.001, above Holm's first
+    // threshold 0.05/60; beyond that the tail is Student's t on the bootstrap standard error, so
+    // a 10 % slowdown at 2 % noise (about 19 standard errors) is still claimed, and nothing else.
+    let runs = |level: f64, phase: f64| -> Vec<f64> {
+        (0..30)
+            .map(|i| ((level * (1.0 + 0.02 * (i as f64 * 2.39 + phase).sin())) * 1000.0).round() / 1000.0)
+            .collect()
+    };
+    let jobs: Vec<Value> = (0..60)
+        .map(|k| {
+            let level = if k == 17 { 110.0 } else { 100.0 };
+            json!({"kind": "compare", "baseline": runs(100.0, 0.0), "candidate": runs(level, 0.3 + k as f64), "seed": k})
+        })
+        .collect();
+    let (s, _, v) = app.post("/v1/batch", &json!({"jobs": jobs, "multiplicity": "holm"})).await;
+    assert_eq!(s, 200, "{v}");
+    let results = v["results"].as_array().unwrap();
+    let slow = &results[17]["ok"];
+    assert_eq!(slow["verdict"], "regression", "{slow}");
+    assert!(num(slow, "/decision/p_value") <= ALPHA / 60.0, "{slow}");
+    let claimed = results
+        .iter()
+        .filter(|r| r["ok"]["verdict"] == "regression" || r["ok"]["verdict"] == "improvement")
+        .count();
+    assert_eq!(claimed, 1);
+}
+
+#[tokio::test]
 async fn a_comparison_alone_and_in_an_uncorrected_batch_are_identical() {
     let app = TestApp::spawn().await;
     let none = run_family(&app, "none").await;
