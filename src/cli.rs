@@ -35,8 +35,8 @@ pub enum Command {
     Interval(IntervalArgs),
     /// Compare a benchmark suite's runs before and after a change and decide, per benchmark,
     /// regression, improvement, equivalent or inconclusive, here or on a server (--server).
-    /// Exit status: 0 no regression, 1 a regression, 2 bad input or usage, 3 inconclusive
-    /// under --strict.
+    /// Exit status: 0 no regression, 1 a regression, 2 (nothing regressed, but) bad input or
+    /// usage, a benchmark refused or a server not reached, 3 inconclusive under --strict.
     Check(Box<crate::check::CheckArgs>),
     /// Print the OpenAPI 3.1 document of the HTTP API (the same bytes as GET /openapi.json
     /// and openapi/openapi.json).

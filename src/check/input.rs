@@ -43,7 +43,8 @@ pub fn read(path: &str, column: Option<&str>) -> Result<Runs, InputError> {
     }
     .map_err(|e| InputError::at(path, None, format!("cannot read the file: {e}")))?;
     let text = String::from_utf8(bytes).map_err(|_| InputError::at(path, None, "is not UTF-8 text"))?;
-    parse(path, &text, column)
+    // Spreadsheet programs start UTF-8 files with a byte-order mark.
+    parse(path, text.strip_prefix('\u{feff}').unwrap_or(&text), column)
 }
 
 /// Read runs from `text`, the contents of the file called `file`.
@@ -119,6 +120,9 @@ fn csv_column(file: &str, text: &str, column: &str) -> Result<Runs, InputError> 
         .headers()
         .map_err(|e| InputError::at(file, Some(1), format!("cannot read the header row: {e}")))?
         .clone();
+    if headers.iter().filter(|h| h.trim() == column).count() > 1 {
+        return Err(InputError::at(file, Some(1), format!("has more than one column {column:?}")));
+    }
     let Some(index) = headers.iter().position(|h| h.trim() == column) else {
         let names: Vec<&str> = headers.iter().map(str::trim).collect();
         return Err(InputError::at(
@@ -134,7 +138,14 @@ fn csv_column(file: &str, text: &str, column: &str) -> Result<Runs, InputError> 
             InputError::at(file, line, format!("cannot read the row: {e}"))
         })?;
         let line = record.position().map(|p| p.line());
-        let cell = record.get(index).unwrap_or("").trim();
+        // An empty cell is a missing run; a row too short to have the cell is a broken row.
+        let Some(cell) = record.get(index).map(str::trim) else {
+            return Err(InputError::at(
+                file,
+                line,
+                format!("the row has {} cells, so none in column {column:?}", record.len()),
+            ));
+        };
         if !cell.is_empty() {
             values.push(number(cell).map_err(|m| InputError::at(file, line, format!("column {column:?}: {m}")))?);
         }
@@ -179,5 +190,10 @@ mod tests {
         );
         assert_eq!(err("a,b\n1,2\n3,x\n", Some("b")), r#"runs.txt:3: column "b": "x" is not a number"#);
         assert_eq!(err("{}", None), "runs.txt: names no benchmarks");
+        assert_eq!(
+            err("a,b\n1,2\n3\n", Some("b")),
+            r#"runs.txt:3: the row has 1 cells, so none in column "b""#
+        );
+        assert_eq!(err("b,b\n1,2\n", Some("b")), r#"runs.txt:1: has more than one column "b""#);
     }
 }

@@ -3,8 +3,9 @@
 //! `compare` jobs does, in-process or against a server (`--server`), with the same numbers
 //! either way for the same seed.
 //!
-//! Exit status: 0 no regression, 1 a regression, 2 bad input, usage, a job refused or a server
-//! that cannot be reached, 3 an inconclusive benchmark under `--strict`.
+//! Exit status: 0 no regression, 1 a regression, 2 (when nothing regressed) bad input, usage,
+//! a benchmark refused or a server that cannot be reached, 3 an inconclusive benchmark under
+//! `--strict`.
 
 pub mod input;
 pub mod report;
@@ -17,6 +18,7 @@ use clap::{Args, ValueEnum};
 use serde_json::{json, Map, Value};
 
 use crate::config::{Limits, Threads};
+use crate::engine::verdict::Verdict;
 use input::{InputError, Runs};
 
 /// How a check ended: the process exit status.
@@ -75,7 +77,8 @@ pub struct CheckArgs {
     /// for a difference.
     #[arg(long, allow_negative_numbers = true)]
     pub tolerance: Option<f64>,
-    /// A confidence level (repeat or separate by commas; the verdict reads the first).
+    /// A confidence level (repeat or separate by commas; the verdict reads the first, and
+    /// under a correction the suite holds at it unless --family-level says otherwise).
     #[arg(long = "level", value_delimiter = ',', allow_negative_numbers = true)]
     pub levels: Vec<f64>,
     /// An interval method (repeat or separate by commas; the verdict reads the first).
@@ -93,7 +96,8 @@ pub struct CheckArgs {
     /// How a suite's verdicts hold together: none, bonferroni or holm.
     #[arg(long, default_value = "holm")]
     pub multiplicity: String,
-    /// The level the whole suite holds at under a correction.
+    /// The level the whole suite holds at under a correction (default: the first --level, else
+    /// the service's default).
     #[arg(long, allow_negative_numbers = true)]
     pub family_level: Option<f64>,
     /// The report's form.
@@ -128,18 +132,31 @@ pub fn pair(args: &CheckArgs, baseline: Runs, candidate: Runs) -> Result<Suite, 
     };
     match (baseline, candidate) {
         (Runs::One(x), Runs::One(y)) => Ok(Suite(vec![(single_name(args), x, y)])),
-        (Runs::Suite(mut x), Runs::Suite(mut y)) => {
-            if let Some(name) = y.keys().find(|k| !x.contains_key(*k)) {
-                return Err(refuse(b, format!("has no benchmark {name:?} (the candidate {c} has it)")));
+        (Runs::Suite(x), Runs::Suite(mut y)) => {
+            let missing = |from: &Map<String, Value>, of: &Map<String, Value>| -> Vec<String> {
+                of.keys().filter(|k| !from.contains_key(*k)).map(|k| format!("{k:?}")).collect()
+            };
+            let (only_candidate, only_baseline) = (missing(&x, &y), missing(&y, &x));
+            if !only_candidate.is_empty() {
+                return Err(refuse(
+                    b,
+                    format!("has no benchmark {} (the candidate {c} has)", only_candidate.join(", ")),
+                ));
             }
-            let mut out = Vec::new();
-            for (name, runs) in std::mem::take(&mut x) {
-                let Some(other) = y.remove(&name) else {
-                    return Err(refuse(c, format!("has no benchmark {name:?} (the baseline {b} has it)")));
-                };
-                out.push((name, runs, other));
+            if !only_baseline.is_empty() {
+                return Err(refuse(
+                    c,
+                    format!("has no benchmark {} (the baseline {b} has)", only_baseline.join(", ")),
+                ));
             }
-            Ok(Suite(out))
+            Ok(Suite(
+                x.into_iter()
+                    .map(|(name, runs)| {
+                        let other = y.remove(&name).expect("both files name it");
+                        (name, runs, other)
+                    })
+                    .collect(),
+            ))
         }
         (Runs::Suite(_), Runs::One(_)) => Err(refuse(
             c,
@@ -208,7 +225,8 @@ pub fn batch_body(args: &CheckArgs, suite: &Suite, seed: u64) -> Value {
         })
         .collect();
     let mut body = json!({"jobs": jobs, "multiplicity": loose(&args.multiplicity)});
-    if let Some(l) = args.family_level {
+    // The level asked for is the suite's, under a correction, unless one is given for it.
+    if let Some(l) = args.family_level.or(args.levels.first().copied()) {
         body["family_level"] = json!(l);
     }
     body
@@ -242,9 +260,13 @@ fn remote(server: &str, api_key: Option<&str>, body: &Value) -> Result<Answer, S
     if let Some(key) = api_key {
         request = request.header("Authorization", &format!("Bearer {key}"));
     }
+    let hint = match server.contains("://") {
+        true => "",
+        false => " (a server is a URL such as http://host:8080)",
+    };
     let mut response = request
         .send(serde_json::to_vec(body).expect("JSON"))
-        .map_err(|e| format!("cannot reach the server at {url}: {e}"))?;
+        .map_err(|e| format!("cannot reach the server at {url}: {e}{hint}"))?;
     let status = response.status().as_u16();
     let text = response
         .body_mut()
@@ -256,15 +278,16 @@ fn remote(server: &str, api_key: Option<&str>, body: &Value) -> Result<Answer, S
     Ok(if status == 200 { Ok(value) } else { Err(value) })
 }
 
-/// The exit status of a batch that answered.
-pub fn exit_of(response: &Value, strict: bool) -> Exit {
-    let results = response["results"].as_array().map(Vec::as_slice).unwrap_or(&[]);
-    let verdicts: Vec<&str> = results.iter().map(|r| r["ok"]["verdict"].as_str().unwrap_or("")).collect();
-    if results.iter().any(|r| r.get("error").is_some()) {
-        Exit::Unusable
-    } else if verdicts.contains(&"regression") {
+/// The exit status of a batch that answered, from its rows (so that an answer the report
+/// cannot read counts as a benchmark not compared). A regression outranks a benchmark that
+/// could not be compared: both fail a pipeline, and the regression is what to act on.
+pub fn exit_of(rows: &[report::Row], strict: bool) -> Exit {
+    let is = |v: Verdict| rows.iter().any(|r| matches!(r, report::Row::Decided(_, c) if c.verdict == v));
+    if is(Verdict::Regression) {
         Exit::Regression
-    } else if strict && verdicts.contains(&"inconclusive") {
+    } else if rows.iter().any(|r| matches!(r, report::Row::Failed(..))) {
+        Exit::Unusable
+    } else if strict && is(Verdict::Inconclusive) {
         Exit::Undecided
     } else {
         Exit::Clear
@@ -273,6 +296,10 @@ pub fn exit_of(response: &Value, strict: bool) -> Exit {
 
 /// `bandsaw check`: returns the process exit status.
 pub fn run(args: &CheckArgs) -> i32 {
+    if args.baseline == "-" && args.candidate == "-" {
+        eprintln!("bandsaw check: only one of the two files can be standard input (\"-\")");
+        return Exit::Unusable as i32;
+    }
     let read = |path: &str| input::read(path, args.column.as_deref());
     let suite = match read(&args.baseline)
         .and_then(|b| Ok((b, read(&args.candidate)?)))
@@ -296,9 +323,9 @@ pub fn run(args: &CheckArgs) -> i32 {
             eprintln!("bandsaw check: {e}");
             return Exit::Unusable as i32;
         }
-        Ok(Err(problem)) => (report::refused(&problem, &names, args), Exit::Unusable),
+        Ok(Err(problem)) => (report::refused(args.format, &problem, &names), Exit::Unusable),
         Ok(Ok(response)) => {
-            let exit = exit_of(&response, args.strict);
+            let exit = exit_of(&report::rows(&response, &names), args.strict);
             (report::render(args.format, &response, &names, seed, exit), exit)
         }
     };

@@ -8,7 +8,7 @@ use quick_xml::Writer;
 use serde::Deserialize;
 use serde_json::{Map, Value};
 
-use super::{CheckArgs, Exit, Format};
+use super::{Exit, Format};
 use crate::engine::job::Contrast;
 use crate::engine::verdict::{num, Better, Verdict};
 
@@ -75,11 +75,13 @@ impl Row<'_> {
 
 /// The problem's detail and its field errors, pointers made relative to the job.
 fn problem_parts(problem: &Value, job: Option<usize>) -> (String, Vec<(String, String)>) {
-    let detail = problem["detail"]
-        .as_str()
-        .or(problem["title"].as_str())
-        .unwrap_or("refused")
-        .to_string();
+    let detail = match problem["errors"].as_array().is_some_and(|e| !e.is_empty()) {
+        // The detail of a refused request only repeats its field errors.
+        true => problem["title"].as_str(),
+        false => problem["detail"].as_str().or(problem["title"].as_str()),
+    }
+    .unwrap_or("refused")
+    .to_string();
     let prefix = job.map(|i| format!("/jobs/{i}"));
     let errors = problem["errors"]
         .as_array()
@@ -89,10 +91,38 @@ fn problem_parts(problem: &Value, job: Option<usize>) -> (String, Vec<(String, S
         .map(|e| {
             let pointer = e["pointer"].as_str().unwrap_or("");
             let local = prefix.as_deref().and_then(|p| pointer.strip_prefix(p)).unwrap_or(pointer);
-            (local.to_string(), e["message"].as_str().unwrap_or("").to_string())
+            (with_flag(local), e["message"].as_str().unwrap_or("").to_string())
         })
         .collect();
     (detail, errors)
+}
+
+/// The command-line flag behind a request field, for a pointer into a job or the batch.
+const FLAGS: [(&str, &str); 12] = [
+    ("/statistic", "--statistic"),
+    ("/contrast", "--contrast"),
+    ("/better", "--better"),
+    ("/tolerance", "--tolerance"),
+    ("/levels", "--level"),
+    ("/methods", "--method"),
+    ("/resamples", "--resamples"),
+    ("/seed", "--seed"),
+    ("/paired", "--paired"),
+    ("/multiplicity", "--multiplicity"),
+    ("/family_level", "--family-level"),
+    ("/baseline", "the baseline file"),
+];
+
+/// A pointer with the flag or file it comes from: "/levels/0 (--level)".
+fn with_flag(pointer: &str) -> String {
+    let from = FLAGS
+        .iter()
+        .chain(&[("/candidate", "the candidate file")])
+        .find(|(field, _)| pointer == *field || pointer.starts_with(&format!("{field}/")));
+    match from {
+        Some((_, flag)) => format!("{pointer} ({flag})"),
+        None => pointer.to_string(),
+    }
 }
 
 /// Each benchmark's row, from a batch response.
@@ -147,8 +177,27 @@ fn change(contrast: Contrast, x: f64) -> String {
     }
 }
 
+/// A level as a percentage, with digits enough to tell it from 100 % (99.995 %, not 100 %).
 fn percent(level: f64) -> String {
-    format!("{}%", num(level * 100.0))
+    let pct = level * 100.0;
+    let rest = 100.0 - pct;
+    let digits = if rest > 0.0 {
+        (2 - rest.log10().floor() as i32).clamp(0, 12) as usize
+    } else {
+        0
+    };
+    let s = format!("{pct:.digits$}");
+    let s = if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    };
+    format!("{s}%")
+}
+
+/// "1 benchmark", "2 benchmarks".
+fn count(n: usize, what: &str) -> String {
+    format!("{n} {what}{}", if n == 1 { "" } else { "s" })
 }
 
 /// The statistic's name as the response gives it (with its parameters, if any).
@@ -188,15 +237,26 @@ fn setup_line(rows: &[Row]) -> Option<String> {
     })
 }
 
-/// How the suite's verdicts hold together, in one line.
-fn family_line(response: &Value, decided: usize) -> String {
-    let level = response["family_level"].as_f64().unwrap_or(0.95);
-    let alarm = percent(1.0 - level);
-    match response["multiplicity"].as_str().unwrap_or("none") {
-        _ if decided < 2 => "one comparison: its verdict at its own level".to_string(),
-        "holm" => format!("Holm's step-down over {decided} comparisons: a false alarm anywhere in the suite at most {alarm} of the time"),
-        "bonferroni" => format!("Bonferroni over {decided} comparisons: a false alarm anywhere in the suite at most {alarm} of the time"),
-        _ => format!("no correction over {decided} comparisons: each may raise a false alarm at its own rate"),
+/// How the suite's verdicts hold together, in one line (the batch response always names its
+/// multiplicity and family level).
+fn family_line(response: &Value, rows: &[Row]) -> String {
+    let decided: Vec<&Compared> = rows
+        .iter()
+        .filter_map(|r| match r {
+            Row::Decided(_, c) => Some(&**c),
+            Row::Failed(..) => None,
+        })
+        .collect();
+    let alarm = percent(1.0 - response["family_level"].as_f64().unwrap_or_default());
+    let decided_n = decided.len();
+    match response["multiplicity"].as_str().unwrap_or_default() {
+        _ if decided_n < 2 => match decided.first() {
+            Some(c) => format!("one comparison, read at {}", percent(c.decision.level)),
+            None => "no comparison could be read".to_string(),
+        },
+        "holm" => format!("Holm's step-down over {decided_n} comparisons: a false alarm anywhere in the suite at most {alarm} of the time"),
+        "bonferroni" => format!("Bonferroni over {decided_n} comparisons: a false alarm anywhere in the suite at most {alarm} of the time"),
+        _ => format!("no correction over {decided_n} comparisons: each may raise a false alarm at its own rate"),
     }
 }
 
@@ -238,7 +298,7 @@ fn exit_words(exit: Exit) -> &'static str {
     }
 }
 
-/// The warnings worth a reader's attention (the small-sample one is said by the verdict).
+/// The codes of a comparison's warnings.
 fn warning_codes(c: &Compared) -> Vec<&str> {
     c.contrast.diagnostics.warnings.iter().map(|w| w.code.as_str()).collect()
 }
@@ -247,16 +307,11 @@ fn warning_codes(c: &Compared) -> Vec<&str> {
 pub fn text(response: &Value, names: &[&str], seed: u64, exit: Exit) -> String {
     let rows = rows(response, names);
     let width = names.iter().map(|n| n.chars().count()).max().unwrap_or(0).max(9);
-    let decided = rows.iter().filter(|r| matches!(r, Row::Decided(..))).count();
-    let mut out = format!(
-        "bandsaw check: {} benchmark{}, candidate against baseline\n",
-        rows.len(),
-        if rows.len() == 1 { "" } else { "s" }
-    );
+    let mut out = format!("bandsaw check: {}, candidate against baseline\n", count(rows.len(), "benchmark"));
     if let Some(setup) = setup_line(&rows) {
         out += &format!("  {setup}\n");
     }
-    out += &format!("  {}\n\n", family_line(response, decided));
+    out += &format!("  {}\n\n", family_line(response, &rows));
     for row in by_urgency(&rows) {
         out += &text_row(row, width);
     }
@@ -304,29 +359,39 @@ fn text_row(row: &Row, width: usize) -> String {
 }
 
 /// Markdown's cell text: pipes and line breaks would end the cell.
+/// Each character that could end the cell, open a code span or emphasis, or start markup is
+/// escaped with a backslash (CommonMark allows it before any ASCII punctuation); line breaks
+/// become spaces. Names are written with it, not in code spans, which a backtick would end.
 fn cell(s: &str) -> String {
-    s.replace('|', "\\|").replace('\n', " ")
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        match c {
+            '\\' | '|' | '`' | '*' | '_' | '<' | '>' | '[' | ']' | '~' | '#' | '&' => {
+                out.push('\\');
+                out.push(c);
+            }
+            '\n' | '\r' => out.push(' '),
+            c if c.is_control() => out.push('\u{FFFD}'),
+            c => out.push(c),
+        }
+    }
+    out
 }
 
 /// The Markdown report for a pull-request comment or a CI job summary.
 pub fn markdown(response: &Value, names: &[&str], seed: u64, exit: Exit) -> String {
     let rows = rows(response, names);
-    let decided = rows.iter().filter(|r| matches!(r, Row::Decided(..))).count();
     let regressions = rows
         .iter()
         .filter(|r| matches!(r, Row::Decided(_, c) if c.verdict == Verdict::Regression))
         .count();
     let headline = match regressions {
-        0 => format!(
-            "no regression in {} benchmark{}",
-            rows.len(),
-            if rows.len() == 1 { "" } else { "s" }
-        ),
-        n => format!("{n} regression{} in {} benchmarks", if n == 1 { "" } else { "s" }, rows.len()),
+        0 => format!("no regression in {}", count(rows.len(), "benchmark")),
+        n => format!("{} in {}", count(n, "regression"), count(rows.len(), "benchmark")),
     };
     let mut out = format!("### bandsaw check: {headline}\n\n");
     if let Some(setup) = setup_line(&rows) {
-        out += &format!("{}; {}.\n\n", cell(&setup), family_line(response, decided));
+        out += &format!("{}; {}.\n\n", cell(&setup), cell(&family_line(response, &rows)));
     }
     out += "| verdict | benchmark | change | interval | level | runs (baseline / candidate) |\n";
     out += "| --- | --- | ---: | --- | ---: | ---: |\n";
@@ -337,12 +402,12 @@ pub fn markdown(response: &Value, names: &[&str], seed: u64, exit: Exit) -> Stri
     let reasons: Vec<String> = by_urgency(&rows)
         .into_iter()
         .filter_map(|r| match r {
-            Row::Decided(n, c) if c.verdict != Verdict::Equivalent => Some(format!("- `{}`: {}", cell(n), cell(&c.verdict_reason))),
+            Row::Decided(n, c) if c.verdict != Verdict::Equivalent => Some(format!("- {}: {}", cell(n), cell(&c.verdict_reason))),
             Row::Failed(n, d, e) => Some(format!(
-                "- `{}` was refused: {}{}",
+                "- {} was refused: {}{}",
                 cell(n),
                 cell(d),
-                e.iter().map(|(p, m)| format!(" `{p}`: {}", cell(m))).collect::<String>()
+                e.iter().map(|(p, m)| format!(" {}: {}", cell(p), cell(m))).collect::<String>()
             )),
             Row::Decided(..) => None,
         })
@@ -362,7 +427,7 @@ fn markdown_row(row: &Row) -> String {
                 v => v.to_string(),
             };
             format!(
-                "| {verdict} | `{}` | {} | {} to {} | {} {} | {} / {} |\n",
+                "| {verdict} | {} | {} | {} to {} | {} {} | {} / {} |\n",
                 cell(name),
                 change(k, c.contrast.estimate),
                 change(k, c.decision.lower),
@@ -373,14 +438,18 @@ fn markdown_row(row: &Row) -> String {
                 c.candidate_n
             )
         }
-        Row::Failed(name, detail, _) => format!("| **refused** | `{}` | | {} | | |\n", cell(name), cell(detail)),
+        Row::Failed(name, detail, _) => format!("| **refused** | {} | | {} | | |\n", cell(name), cell(detail)),
     }
 }
 
 /// JUnit XML: one test case per benchmark; a regression is a failure, an inconclusive result
 /// a skipped case, a refused job an error, each with the reason as its message.
 pub fn junit(response: &Value, names: &[&str]) -> String {
-    let rows = rows(response, names);
+    junit_of(&rows(response, names), response["elapsed_ms"].as_f64().unwrap_or(0.0) / 1000.0)
+}
+
+/// JUnit XML of rows that took `seconds`.
+fn junit_of(rows: &[Row], seconds: f64) -> String {
     let count = |f: &dyn Fn(&Row) -> bool| rows.iter().filter(|r| f(r)).count().to_string();
     let is = |v: Verdict| move |r: &Row| matches!(r, Row::Decided(_, c) if c.verdict == v);
     let (tests, failures, skipped, errors) = (
@@ -389,7 +458,7 @@ pub fn junit(response: &Value, names: &[&str]) -> String {
         count(&is(Verdict::Inconclusive)),
         count(&|r| matches!(r, Row::Failed(..))),
     );
-    let seconds = format!("{:.3}", response["elapsed_ms"].as_f64().unwrap_or(0.0) / 1000.0);
+    let seconds = format!("{seconds:.3}");
     let counts = [
         ("tests", tests.as_str()),
         ("failures", &failures),
@@ -418,17 +487,30 @@ pub fn junit(response: &Value, names: &[&str]) -> String {
     xml
 }
 
+/// Text XML 1.0 can carry: control characters but tab, line feed and carriage return become
+/// U+FFFD (the XML writer escapes markup, not these).
+fn xml_text(s: &str) -> String {
+    s.chars()
+        .map(|c| match c {
+            '\t' | '\n' | '\r' => c,
+            c if (c as u32) < 0x20 || c == '\u{FFFE}' || c == '\u{FFFF}' => '\u{FFFD}',
+            c => c,
+        })
+        .collect()
+}
+
 fn junit_case(w: &mut Writer<Vec<u8>>, row: &Row) -> std::io::Result<()> {
+    let name = xml_text(row.name());
     let case = w
         .create_element("testcase")
-        .with_attribute(("name", row.name()))
+        .with_attribute(("name", name.as_str()))
         .with_attribute(("classname", "bandsaw.check"));
     let (child, kind, message) = match row {
         Row::Decided(_, c) => match c.verdict {
             Verdict::Regression => ("failure", "regression", c.verdict_reason.clone()),
             Verdict::Inconclusive => ("skipped", "inconclusive", c.verdict_reason.clone()),
             _ => {
-                let out = format!("{}: {}", c.verdict, c.verdict_reason);
+                let out = xml_text(&format!("{}: {}", c.verdict, c.verdict_reason));
                 case.write_inner_content(|w| w.create_element("system-out").write_text_content(BytesText::new(&out)).map(|_| ()))?;
                 return Ok(());
             }
@@ -441,7 +523,7 @@ fn junit_case(w: &mut Writer<Vec<u8>>, row: &Row) -> std::io::Result<()> {
     case.write_inner_content(|w| {
         w.create_element(child)
             .with_attribute(("type", kind))
-            .with_attribute(("message", message.as_str()))
+            .with_attribute(("message", xml_text(&message).as_str()))
             .write_empty()
             .map(|_| ())
     })?;
@@ -474,18 +556,32 @@ pub fn render(format: Format, response: &Value, names: &[&str], seed: u64, exit:
     }
 }
 
-/// The report of a batch refused as a whole (a bad option, the work limit): the problem's
-/// detail and fields, pointers into a job named by its benchmark.
-pub fn refused(problem: &Value, names: &[&str], args: &CheckArgs) -> String {
-    if args.format == Format::Json {
-        return json(problem, names);
-    }
+/// The report of a batch refused as a whole (a bad option, the work limit), in `format`: the
+/// problem's title and fields, pointers into a job named by its benchmark.
+pub fn refused(format: Format, problem: &Value, names: &[&str]) -> String {
     let (detail, errors) = problem_parts(problem, None);
-    let mut out = format!("bandsaw check: refused: {detail}\n");
-    for (pointer, message) in errors {
-        out += &format!("  {}: {message}\n", place(&pointer, names));
+    let lines: Vec<String> = errors
+        .iter()
+        .map(|(pointer, message)| format!("{}: {message}", place(pointer, names)))
+        .collect();
+    match format {
+        Format::Json => json(problem, names),
+        Format::Text => {
+            let mut out = format!("bandsaw check: refused: {detail}\n");
+            for line in &lines {
+                out += &format!("  {line}\n");
+            }
+            out
+        }
+        Format::Markdown => {
+            let items: String = lines.iter().map(|l| format!("- {}\n", cell(l))).collect();
+            format!("### bandsaw check: refused\n\n{}\n\n{items}", cell(&detail))
+        }
+        Format::Junit => {
+            let row = Row::Failed("bandsaw check", detail, errors);
+            junit_of(&[row], 0.0)
+        }
     }
-    out
 }
 
 /// A pointer into the batch as a person reads it: "benchmark \"x\", /tolerance".

@@ -224,7 +224,7 @@ fn junit_has_one_case_per_benchmark_and_markdown_one_row() {
     let b = write(&dir, "base4.json", &base.to_string());
     c = write(&dir, "change4.json", &change.to_string());
     let r = check(&[&b, &c, "--tolerance", "0.03", "--format", "junit", "--seed", "2"]);
-    assert_eq!(r.status, 2, "a refused job: {}", r.stdout);
+    assert_eq!(r.status, 1, "a regression outranks a refused job: {}", r.stdout);
     assert_eq!(
         junit_cases(&r.stdout),
         [
@@ -247,8 +247,8 @@ fn junit_has_one_case_per_benchmark_and_markdown_one_row() {
         .collect();
     assert_eq!(rows.len(), 4, "{}", r.stdout);
     // What needs action first: the regression, then the refused job.
-    assert!(rows[0].starts_with("| **regression** | `parse/small_doc` | +10."), "{}", rows[0]);
-    assert!(rows[1].starts_with("| **refused** | `resize/broken`"), "{}", rows[1]);
+    assert!(rows[0].starts_with("| **regression** | parse/small\\_doc | +10."), "{}", rows[0]);
+    assert!(rows[1].starts_with("| **refused** | resize/broken"), "{}", rows[1]);
     assert!(r.stdout.contains("<details><summary>Why</summary>"));
 }
 
@@ -350,4 +350,96 @@ fn the_demo_suite_tells_its_story_and_the_readme_shows_what_it_prints() {
     );
     let markdown = between("<!-- check-demo markdown", "<!-- check-demo end -->");
     assert_eq!(markdown, demo_check("markdown").stdout, "the README's Markdown report");
+}
+
+#[test]
+fn names_and_messages_cannot_break_the_markdown_table_or_the_xml() {
+    let dir = workdir("escape");
+    let (base, change) = (runs(12, 8.0, 0.03, 0.0), runs(12, 9.0, 0.03, 0.5));
+    let names = ["a|b", "tick`s`", "<x&y>", "ctl\u{1}char", "back\\|slash"];
+    let suite = |v: &[f64]| Value::Object(names.iter().map(|n| (n.to_string(), json!(v))).collect());
+    let (b, c) = (
+        write(&dir, "b.json", &suite(&base).to_string()),
+        write(&dir, "c.json", &suite(&change).to_string()),
+    );
+    let r = check(&[&b, &c, "--format", "junit", "--seed", "1"]);
+    assert_eq!(r.status, 1, "{}", r.stderr);
+    let cases: Vec<String> = junit_cases(&r.stdout).into_iter().map(|(n, _)| n).collect();
+    assert_eq!(
+        cases,
+        ["a|b", "tick`s`", "<x&y>", "ctl\u{FFFD}char", "back\\|slash"],
+        "{}",
+        r.stdout
+    );
+    let r = check(&[&b, &c, "--format", "markdown", "--seed", "1"]);
+    let rows: Vec<&str> = r.stdout.lines().filter(|l| l.starts_with("| **regression**")).collect();
+    assert_eq!(rows.len(), 5, "{}", r.stdout);
+    for row in rows {
+        // Seven cells: eight pipes that are not escaped by a backslash.
+        let bytes = row.as_bytes();
+        let unescaped = (0..bytes.len())
+            .filter(|&i| bytes[i] == b'|' && bytes[..i].iter().rev().take_while(|c| **c == b'\\').count() % 2 == 0)
+            .count();
+        assert_eq!(unescaped, 7, "{row}");
+        assert!(!row.contains('`') || row.contains("\\`"), "{row}");
+    }
+}
+
+#[test]
+fn a_batch_refused_whole_is_reported_in_the_asked_format() {
+    let dir = workdir("refused");
+    let (b, c) = suite_files(&dir, &ALL);
+    // Under Holm the first --level is the suite's level: 95 is not a level.
+    let r = check(&[&b, &c, "--level", "95", "--format", "junit"]);
+    assert_eq!(r.status, 2, "{}", r.stdout);
+    let cases = junit_cases(&r.stdout);
+    assert_eq!(cases, [("bandsaw check".to_string(), Some("error".to_string()))], "{}", r.stdout);
+    assert!(r.stdout.contains("/family_level (--family-level)"), "{}", r.stdout);
+    let r = check(&[&b, &c, "--level", "95", "--format", "markdown"]);
+    assert!(r.stdout.starts_with("### bandsaw check: refused"), "{}", r.stdout);
+    // A level that is one: the suite holds at it, and a single comparison is read at it.
+    let (b1, c1) = suite_files(&dir, &["parse/large_doc"]);
+    let r = check(&[&b1, &c1, "--level", "0.9", "--tolerance", "0.03", "--format", "json"]);
+    let v: Value = serde_json::from_str(&r.stdout).unwrap();
+    assert_eq!(
+        (&v["family_level"], &v["results"][0]["ok"]["decision"]["level"]),
+        (&json!(0.9), &json!(0.9))
+    );
+}
+
+#[test]
+fn a_byte_order_mark_and_standard_input_are_read() {
+    let dir = workdir("bom");
+    let b = write(&dir, "b.txt", "\u{feff}12.1\n12.3\n12.2\n12.4\n12.0\n12.2\n");
+    let c = write(&dir, "c.txt", "\u{feff}[12.2, 12.1, 12.3, 12.2, 12.4, 12.1]");
+    let r = check(&[&b, &c, "--tolerance", "0.05"]);
+    assert_eq!(r.status, 0, "{}{}", r.stdout, r.stderr);
+    let r = check(&["-", "-"]);
+    assert_eq!(r.status, 2);
+    assert!(r.stderr.contains("only one of the two files can be standard input"), "{}", r.stderr);
+}
+
+#[test]
+fn an_answer_the_report_cannot_read_is_not_a_pass() {
+    // A "server" that answers 200 with JSON that is no batch response.
+    let listener = std::net::TcpListener::bind("127.0.0.1:0").unwrap();
+    let url = format!("http://{}", listener.local_addr().unwrap());
+    std::thread::spawn(move || {
+        if let Ok((mut stream, _)) = listener.accept() {
+            use std::io::{Read, Write};
+            let mut buf = [0u8; 65536];
+            let _ = stream.read(&mut buf);
+            let body = r#"{"hello": 1}"#;
+            let _ = write!(
+                stream,
+                "HTTP/1.1 200 OK\r\nContent-Type: application/json\r\nContent-Length: {}\r\nConnection: close\r\n\r\n{body}",
+                body.len()
+            );
+        }
+    });
+    let dir = workdir("unreadable");
+    let (b, c) = suite_files(&dir, &["parse/large_doc"]);
+    let r = check(&[&b, &c, "--server", &url]);
+    assert_eq!(r.status, 2, "{}{}", r.stdout, r.stderr);
+    assert!(r.stdout.contains("REFUSED"), "{}", r.stdout);
 }
