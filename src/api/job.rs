@@ -144,7 +144,7 @@ pub fn prepare(
     deadline_cap: Option<Instant>,
 ) -> Result<PreparedJob, Problem> {
     let r = asked.resampling;
-    let (params, comparing, seed, replay) = match &r.token {
+    let (mut params, comparing, seed, replay) = match &r.token {
         Some(t) => {
             let (p, c, s, replay) = replayed(t, asked, limits)?;
             (p, c, s, Some(replay))
@@ -154,6 +154,10 @@ pub fn prepare(
             (with.unwrap_or_else(|| r.params()), asked.comparing, seed, None)
         }
     };
+    // An "auto" block length is chosen from the data and returned resolved (a token's is
+    // resolved already).
+    let series: Vec<&[f64]> = asked.samples.iter().flat_map(|(s, _, _)| s.series()).collect();
+    params.scheme = params.scheme.resolved(&series);
     let own_ms = r
         .time_limit_ms
         .map_or(limits.default_time_limit_ms, |t| t.get())
@@ -193,6 +197,12 @@ fn refusal(e: RunError, time_limit_ms: u64, places: &[(&str, DataForm)]) -> Prob
             "/resamples",
             Rule::ExactTooMany,
             format!("\"exact\": {e}; it suits samples of up to about 10 observations. Give a number of resamples instead"),
+        ),
+        RunError::Scheme(e @ SchemeError::NeedsRows { .. }) => invalid("/scheme", Rule::SchemeNeedsRows, format!("{e}")),
+        RunError::Scheme(e @ (SchemeError::BlockTooLong { .. } | SchemeError::BlockNotWhole { .. })) => invalid(
+            "/scheme",
+            Rule::BlockLength,
+            format!("{e}: give a whole number of rows up to the series' length, or \"auto\""),
         ),
         RunError::Scheme(e) => invalid("/resamples", Rule::ExactNeedsIid, format!("\"exact\": {e}; give a number of resamples")),
         RunError::WorkLimit { needed, limit } => Problem::work_limit(needed, limit),

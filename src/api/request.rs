@@ -14,6 +14,7 @@ use super::fields::{
 use super::rules::Rule;
 use crate::config::Limits;
 use crate::engine::data::Sample;
+use crate::engine::interval::Method;
 use crate::engine::job::{Contrast, InnerResamples, Job, Samples};
 use crate::engine::plan::{self, McTarget};
 use crate::engine::plan::{OnTimeLimit, Stop};
@@ -193,6 +194,18 @@ pub fn check_params(p: &Params, limits: &Limits) -> Vec<(String, Rule, String)> 
                 "/resamples".into(),
                 Rule::ResampleLimit,
                 format!("must be at most this server's limit of {}; got {}", limits.max_resamples, b.get()),
+            ));
+        }
+    }
+    if p.scheme.block().is_some() {
+        if let Some(i) = p.methods.0.iter().position(|m| *m == Method::Studentized) {
+            out.push((
+                format!("/methods/{i}"),
+                Rule::StudentizedNeedsIndependentRows,
+                format!(
+                    "the studentized interval needs a standard error of each resample that the {} scheme does not give (its rows are not independent); use percentile, bca, basic or normal",
+                    p.scheme.name()
+                ),
             ));
         }
     }

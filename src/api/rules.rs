@@ -14,6 +14,12 @@ crate::wire_enum! {
         ExactNeedsIid = "exact_needs_iid",
         /// `"exact"` only where the count of distinct resamples is within the server's `limits.max_resamples` (samples of up to about 10 observations).
         ExactTooMany = "exact_too_many",
+        /// A block scheme reads rows in the order observed: an array or columns, not aggregated data.
+        SchemeNeedsRows = "scheme_needs_rows",
+        /// A block length is a whole number of rows (a mean block length any number) from 1 up to the series' length.
+        BlockLength = "block_length",
+        /// The studentized interval needs independent rows: a block scheme's resamples have no standard error of their own to studentize by.
+        StudentizedNeedsIndependentRows = "studentized_needs_independent_rows",
         /// A number of resamples at most the server's `limits.max_resamples`.
         ResampleLimit = "resample_limit",
         /// At most the server's `limits.max_rows` rows (or distinct values), and counts that add up to what it can resample.

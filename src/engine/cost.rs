@@ -39,6 +39,15 @@ fn jackknife_work(job: &Job, target: &Target) -> f64 {
         return 0.0;
     }
     let cost = job.statistic.relative_cost();
+    // A block scheme's jackknife leaves out blocks, closed form or not.
+    let blocks: Vec<f64> = target
+        .resamplers()
+        .iter()
+        .filter_map(|r| r.blocks().map(|(order, block)| jackknife::block_cost_in_units(order.len(), block)))
+        .collect();
+    if !blocks.is_empty() {
+        return cost * blocks.iter().sum::<f64>();
+    }
     match target {
         // Pairs leave out a row of both samples at a time, with no closed form.
         Target::Paired { pair, .. } => 2.0 * cost * jackknife::cost_in_units(false, pair.units().base.len(), true),

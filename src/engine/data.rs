@@ -133,6 +133,18 @@ pub enum Form {
     Columns { names: Vec<String>, columns: Vec<Vec<f64>> },
 }
 
+impl Sample {
+    /// Each column of the sample in the order observed (none for aggregated data, whose order
+    /// is lost): what a block scheme reads as a series.
+    pub fn series(&self) -> Vec<&[f64]> {
+        match self.form() {
+            Form::Column(x) => vec![x.as_slice()],
+            Form::Columns { columns, .. } => columns.iter().map(Vec::as_slice).collect(),
+            Form::Aggregated { .. } => vec![],
+        }
+    }
+}
+
 /// Every value above [`MAX_MAGNITUDE`], placed by `at`.
 fn too_large(x: &[f64], at: impl Fn(usize) -> Place, errors: &mut Vec<DataError>) {
     for (i, v) in x.iter().enumerate() {

@@ -248,7 +248,7 @@ fn serial_correlation(f: &Facts) -> Option<Warning> {
     Some(Warning::new(
         WarningCode::SerialCorrelation,
         format!(
-            "the data, in the order given, are serially correlated (lag-1 autocorrelation {r:.2}); resampling single rows then understates the standard error. If the order is time, use a block bootstrap scheme, or aggregate to independent periods."
+            "the data, in the order given, are serially correlated (lag-1 autocorrelation {r:.2}); resampling single rows then understates the standard error. If the order is time, resample blocks of rows: \"scheme\": {{\"kind\": \"stationary_block\", \"mean_block_length\": \"auto\"}}, or aggregate to independent periods."
         ),
     ))
 }

@@ -14,7 +14,7 @@ use crate::engine::job::{Contrast, Include, Job, Resampled, Samples};
 use crate::engine::kernel::{contrast_se, Arm, Kernel, Pair, SeSource, Target};
 use crate::engine::plan::{self, Ended, Plan, Resamples, Source, Stop};
 use crate::engine::scheme::SchemeError;
-use crate::engine::statistic::{Estimator, Weighted};
+use crate::engine::statistic::Weighted;
 use crate::engine::summary::{self, IntervalResult, Reader, Summary, SummaryInput};
 
 /// Which sample of a job a problem is about.
@@ -120,7 +120,7 @@ fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<Bound, R
     let units = estimator.units();
     let resampler = match job.resamples {
         Resamples::Exact => part.scheme.enumerator(units, job.max_resamples).map_err(RunError::Scheme)?,
-        _ => part.scheme.resampler(units),
+        _ => part.scheme.resampler(units, estimator.unit_of_row()).map_err(RunError::Scheme)?,
     };
     Ok((
         Arm {
@@ -172,7 +172,11 @@ fn paired(job: &Job, baseline: &Resampled, candidate: &Resampled, contrast: Cont
     let units = pair.units();
     let rows = match job.resamples {
         Resamples::Exact => baseline.scheme.enumerator(units, job.max_resamples).map_err(RunError::Scheme)?,
-        _ => baseline.scheme.resampler(units),
+        // The pairs' rows are the units, in time order.
+        _ => baseline
+            .scheme
+            .resampler(units, Some((0..units.base.len() as u32).collect()))
+            .map_err(RunError::Scheme)?,
     };
     Ok((Target::Paired { pair, rows }, contrast.of(ec, eb), Some((eb, ec))))
 }
@@ -389,7 +393,7 @@ impl Prepared {
         };
         match &self.target {
             Target::One(a) => {
-                let j = jackknife::jackknife(&a.estimator, &stop).map_err(stopped)?;
+                let j = jackknife::of_part(&a.estimator, a.resampler.as_ref(), &stop).map_err(stopped)?;
                 Ok(j.map(|j| JackknifeFacts {
                     acceleration: bca::acceleration(&j.values, &j.multiplicity),
                     kind: j.kind,
@@ -400,11 +404,9 @@ impl Prepared {
                 baseline,
                 candidate,
                 contrast,
-            } => self
-                .jackknife_of_two(&baseline.estimator, &candidate.estimator, *contrast, &stop)
-                .map_err(stopped),
-            Target::Paired { pair, .. } => {
-                let j = jackknife::jackknife(pair, &stop).map_err(stopped)?;
+            } => self.jackknife_of_two(baseline, candidate, *contrast, &stop).map_err(stopped),
+            Target::Paired { pair, rows } => {
+                let j = jackknife::of_part(pair, rows.as_ref(), &stop).map_err(stopped)?;
                 Ok(j.map(|j| JackknifeFacts {
                     acceleration: bca::acceleration(&j.values, &j.multiplicity),
                     kind: j.kind,
@@ -418,20 +420,20 @@ impl Prepared {
     /// whole, and the acceleration of several samples.
     fn jackknife_of_two(
         &self,
-        baseline: &Estimator,
-        candidate: &Estimator,
+        baseline: &Arm,
+        candidate: &Arm,
         contrast: Contrast,
         stop: &(dyn Fn() -> bool + Sync),
     ) -> Result<Option<JackknifeFacts>, jackknife::Stopped> {
         let (eb, ec) = self.sample_estimates.expect("two samples");
-        let jb = jackknife::jackknife(baseline, stop)?;
-        let jc = jackknife::jackknife(candidate, stop)?;
+        let jb = jackknife::of_part(&baseline.estimator, baseline.resampler.as_ref(), stop)?;
+        let jc = jackknife::of_part(&candidate.estimator, candidate.resampler.as_ref(), stop)?;
         let (Some(jb), Some(jc)) = (jb, jc) else { return Ok(None) };
         let vb: Vec<f64> = jb.values.iter().map(|b| contrast.of(ec, *b)).collect();
         let vc: Vec<f64> = jc.values.iter().map(|c| contrast.of(*c, eb)).collect();
         let samples = [(&vb[..], &jb.multiplicity[..]), (&vc[..], &jc.multiplicity[..])];
         // The coarser of the two ways stands for both.
-        let (kind, groups) = if jb.kind == JackknifeKind::Grouped {
+        let (kind, groups) = if jb.kind != JackknifeKind::LeaveOneOut && jb.kind != JackknifeKind::ClosedForm {
             (jb.kind, jb.groups)
         } else {
             (jc.kind, jc.groups)

@@ -22,6 +22,7 @@ use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 use rayon::prelude::*;
 
+use crate::engine::scheme::Resampler;
 use crate::engine::statistic::{Scratch, Weighted};
 
 /// Raw rows up to which the generic jackknife leaves out each row in turn.
@@ -42,6 +43,9 @@ crate::wire_enum! {
         LeaveOneOut = "leave_one_out",
         /// Groups of observations left out in turn (delete-a-group jackknife).
         Grouped = "grouped",
+        /// Blocks of consecutive rows left out in turn, under a block scheme (the delete-a-block
+        /// jackknife of Künsch 1989).
+        Blocks = "blocks",
     }
 }
 
@@ -101,6 +105,41 @@ pub fn jackknife(est: &dyn Weighted, stop: &(dyn Fn() -> bool + Sync)) -> Result
     grouped(est, base, stop)
 }
 
+/// The jackknife of a sample as its scheme resamples it: under a block scheme, blocks of
+/// consecutive rows are left out ([`by_blocks`]), else [`jackknife`].
+pub fn of_part(est: &dyn Weighted, resampler: &dyn Resampler, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+    match resampler.blocks() {
+        Some((order, block)) => by_blocks(est, order, block, stop),
+        None => jackknife(est, stop),
+    }
+}
+
+/// Leave out non-overlapping blocks of `block` consecutive rows (`order`: the unit of each row
+/// in time order) in turn, each block counting once; for long series the blocks are widened to
+/// n/[`GROUPS`] rows, so that at most [`GROUPS`] evaluations are made. `Ok(None)` with fewer
+/// than 3 blocks.
+pub fn by_blocks(est: &dyn Weighted, order: &[u32], block: usize, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+    let size = block.max(order.len().div_ceil(GROUPS)).max(1);
+    let members: Vec<Vec<usize>> = order.chunks(size).map(|c| c.iter().map(|u| *u as usize).collect()).collect();
+    if members.len() < 3 {
+        return Ok(None);
+    }
+    let count = members.len();
+    let values = leave_groups_out(est, est.units().base.to_vec(), &members, stop)?;
+    Ok(Some(Jackknife {
+        values,
+        multiplicity: vec![1.0; count],
+        kind: JackknifeKind::Blocks,
+        groups: Some(count),
+    }))
+}
+
+/// The evaluations of a block jackknife of `rows` rows in blocks of `block`.
+pub fn block_cost_in_units(rows: usize, block: usize) -> f64 {
+    let blocks = rows.div_ceil(block.max(1)).min(GROUPS);
+    blocks as f64 * rows as f64
+}
+
 /// Flags a stop once it is asked for, so that every worker sees it without asking again.
 fn stop_flag(stop: &(dyn Fn() -> bool + Sync)) -> (AtomicBool, impl Fn(&AtomicBool) -> bool + Sync + '_) {
     let check = move |stopped: &AtomicBool| {
@@ -144,25 +183,15 @@ fn leave_one_out(est: &dyn Weighted, base: Vec<f64>, stop: &(dyn Fn() -> bool + 
     }))
 }
 
-/// Leave out groups of rows in turn: [`GROUPS`] groups of (almost) equal size dealt by a fixed
-/// permutation.
-fn grouped(est: &dyn Weighted, base: Vec<f64>, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+/// The statistic with each group of units left out in turn.
+fn leave_groups_out(
+    est: &dyn Weighted,
+    base: Vec<f64>,
+    members: &[Vec<usize>],
+    stop: &(dyn Fn() -> bool + Sync),
+) -> Result<Vec<f64>, Stopped> {
     let units = base.len();
     let (stopped, check) = stop_flag(stop);
-    // Rows dealt into GROUPS groups of (almost) equal size by a fixed permutation.
-    let mut order: Vec<usize> = (0..units).collect();
-    order.shuffle(&mut ChaCha8Rng::seed_from_u64(GROUP_SEED));
-    let mut group_of = vec![0u32; units];
-    for (k, row) in order.iter().enumerate() {
-        group_of[*row] = (k % GROUPS) as u32;
-    }
-    let members: Vec<Vec<usize>> = {
-        let mut m: Vec<Vec<usize>> = (0..GROUPS).map(|_| Vec::with_capacity(units / GROUPS + 1)).collect();
-        for (row, g) in group_of.iter().enumerate() {
-            m[*g as usize].push(row);
-        }
-        m
-    };
     let values: Vec<f64> = members
         .par_iter()
         .map_init(
@@ -182,9 +211,31 @@ fn grouped(est: &dyn Weighted, base: Vec<f64>, stop: &(dyn Fn() -> bool + Sync))
             },
         )
         .collect();
-    if stopped.load(Ordering::Relaxed) {
-        return Err(Stopped);
+    match stopped.load(Ordering::Relaxed) {
+        true => Err(Stopped),
+        false => Ok(values),
     }
+}
+
+/// Leave out groups of rows in turn: [`GROUPS`] groups of (almost) equal size dealt by a fixed
+/// permutation.
+fn grouped(est: &dyn Weighted, base: Vec<f64>, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+    let units = base.len();
+    // Rows dealt into GROUPS groups of (almost) equal size by a fixed permutation.
+    let mut order: Vec<usize> = (0..units).collect();
+    order.shuffle(&mut ChaCha8Rng::seed_from_u64(GROUP_SEED));
+    let mut group_of = vec![0u32; units];
+    for (k, row) in order.iter().enumerate() {
+        group_of[*row] = (k % GROUPS) as u32;
+    }
+    let members: Vec<Vec<usize>> = {
+        let mut m: Vec<Vec<usize>> = (0..GROUPS).map(|_| Vec::with_capacity(units / GROUPS + 1)).collect();
+        for (row, g) in group_of.iter().enumerate() {
+            m[*g as usize].push(row);
+        }
+        m
+    };
+    let values = leave_groups_out(est, base, &members, stop)?;
     // Each group counts once: with random groups Σ_g (Σ_{i∈g} Uᵢ)ᵏ estimates Σᵢ Uᵢᵏ for k = 2, 3
     // (the cross terms vanish in expectation), and the acceleration is a ratio of those sums.
     Ok(Some(Jackknife {

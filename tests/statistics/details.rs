@@ -98,7 +98,7 @@ fn normalized_mad_is_scaled_by_1_4826() {
 fn bayesian_weights_add_up_to_the_sample_size() {
     let x: Vec<f64> = (0..17).map(|k| k as f64).collect();
     let est = stat("mean").build(&Sample::column(x).unwrap()).unwrap();
-    let resampler = SchemeSpec::Bayesian {}.resampler(est.units());
+    let resampler = SchemeSpec::Bayesian {}.resampler(est.units(), None).expect("no rows needed");
     let mut w = vec![0.0; 17];
     for i in 0..50 {
         let mut rng = replicate_stream(9, i);

@@ -9,9 +9,11 @@
 //! - [`bayesian`]: Dirichlet(1, …, 1) weights, Rubin, D. B. (1981), "The Bayesian bootstrap",
 //!   Annals of Statistics 9(1);
 //! - [`exact`]: every distinct `iid` resample with its multinomial probability, Fisher, N. I.
-//!   & Hall, P. (1991), J. Statist. Plann. Inference 27.
+//!   & Hall, P. (1991), J. Statist. Plann. Inference 27;
+//! - [`block`]: moving, circular and stationary blocks of a series in time order.
 
 pub mod bayesian;
+pub mod block;
 pub mod exact;
 pub mod iid;
 
@@ -20,6 +22,7 @@ use serde::{Deserialize, Serialize};
 use utoipa::ToSchema;
 
 use crate::engine::statistic::Units;
+pub use block::{BlockKind, BlockLength};
 
 /// Draws resamples of one sample.
 pub trait Resampler: Send + Sync {
@@ -45,6 +48,12 @@ pub trait Resampler: Send + Sync {
     fn independent_rows(&self) -> bool {
         true
     }
+
+    /// For a block scheme: the units of the rows in time order, and the length of the blocks
+    /// a jackknife leaves out.
+    fn blocks(&self) -> Option<(&[u32], usize)> {
+        None
+    }
 }
 
 /// Per-worker scratch space of the nested bootstrap: an outer resample's rows written out.
@@ -59,7 +68,7 @@ pub struct Within {
 }
 
 /// How a resample is drawn.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, ToSchema)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, ToSchema)]
 #[serde(tag = "kind", deny_unknown_fields)]
 pub enum SchemeSpec {
     /// n rows drawn with replacement (aggregated data: a multinomial over the distinct values).
@@ -68,6 +77,30 @@ pub enum SchemeSpec {
     /// Dirichlet(1, …, 1) weights on the rows (Rubin 1981), scaled to add up to n.
     #[serde(rename = "bayesian")]
     Bayesian {},
+    /// Blocks of `block_length` consecutive rows (rows in time order as sent), starting
+    /// anywhere a whole block fits (Künsch 1989).
+    #[serde(rename = "moving_block")]
+    MovingBlock {
+        #[serde(default)]
+        #[schema(value_type = block::BlockLength)]
+        block_length: BlockLength,
+    },
+    /// Blocks of `block_length` consecutive rows of the series wrapped into a circle (Politis &
+    /// Romano 1992).
+    #[serde(rename = "circular_block")]
+    CircularBlock {
+        #[serde(default)]
+        #[schema(value_type = block::BlockLength)]
+        block_length: BlockLength,
+    },
+    /// Blocks of geometric length with mean `mean_block_length`, the series wrapped into a
+    /// circle (Politis & Romano 1994).
+    #[serde(rename = "stationary_block")]
+    StationaryBlock {
+        #[serde(default)]
+        #[schema(value_type = block::BlockLength)]
+        mean_block_length: BlockLength,
+    },
 }
 
 impl Default for SchemeSpec {
@@ -80,10 +113,16 @@ impl Default for SchemeSpec {
 /// Why a scheme cannot draw the resamples asked for.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum SchemeError {
-    #[error("the {scheme} scheme has continuous weights, so its resamples cannot be enumerated")]
+    #[error("the {scheme} scheme's resamples cannot be enumerated")]
     NotEnumerable { scheme: &'static str },
     #[error("enumerating would visit {} distinct resamples, above the limit of {limit}", count.map_or("more than 1.8e19".to_string(), |c| c.to_string()))]
     TooManyToEnumerate { count: Option<u64>, limit: u64 },
+    #[error("the {scheme} scheme strings together runs of consecutive rows, so it needs rows in the order observed (an array or columns), not aggregated data")]
+    NeedsRows { scheme: &'static str },
+    #[error("a block of {length} rows is longer than the series of {rows} rows")]
+    BlockTooLong { length: f64, rows: usize },
+    #[error("a block length of {length} rows is not a whole number")]
+    BlockNotWhole { length: f64 },
 }
 
 impl SchemeSpec {
@@ -91,22 +130,65 @@ impl SchemeSpec {
         match self {
             SchemeSpec::Iid {} => "iid",
             SchemeSpec::Bayesian {} => "bayesian",
+            SchemeSpec::MovingBlock { .. } => "moving_block",
+            SchemeSpec::CircularBlock { .. } => "circular_block",
+            SchemeSpec::StationaryBlock { .. } => "stationary_block",
         }
     }
 
-    /// The resampler that draws this scheme's resamples of a sample with these units.
-    pub fn resampler(&self, units: Units<'_>) -> Box<dyn Resampler> {
-        match self {
-            SchemeSpec::Iid {} => Box::new(iid::Iid::new(units)),
-            SchemeSpec::Bayesian {} => Box::new(bayesian::Bayesian::new(units)),
+    /// A block scheme's kind and length.
+    pub fn block(&self) -> Option<(BlockKind, BlockLength)> {
+        match *self {
+            SchemeSpec::MovingBlock { block_length } => Some((BlockKind::Moving, block_length)),
+            SchemeSpec::CircularBlock { block_length } => Some((BlockKind::Circular, block_length)),
+            SchemeSpec::StationaryBlock { mean_block_length } => Some((BlockKind::Stationary, mean_block_length)),
+            SchemeSpec::Iid {} | SchemeSpec::Bayesian {} => None,
         }
+    }
+
+    /// The scheme with an `"auto"` block length chosen from `series` (each a column in time
+    /// order): the longest any of them calls for, so that every series keeps its dependence.
+    pub fn resolved(&self, series: &[&[f64]]) -> SchemeSpec {
+        let Some((kind, BlockLength::Auto)) = self.block() else {
+            return *self;
+        };
+        let length = series.iter().map(|x| block::automatic_length(x, kind)).fold(1.0, f64::max);
+        let l = BlockLength::Rows(length);
+        match kind {
+            BlockKind::Moving => SchemeSpec::MovingBlock { block_length: l },
+            BlockKind::Circular => SchemeSpec::CircularBlock { block_length: l },
+            BlockKind::Stationary => SchemeSpec::StationaryBlock { mean_block_length: l },
+        }
+    }
+
+    /// The resampler that draws this scheme's resamples of a sample with these units; `order`
+    /// is the unit of each row in time order (none for aggregated data, which block schemes
+    /// refuse).
+    pub fn resampler(&self, units: Units<'_>, order: Option<Vec<u32>>) -> Result<Box<dyn Resampler>, SchemeError> {
+        let Some((kind, length)) = self.block() else {
+            return Ok(match self {
+                SchemeSpec::Bayesian {} => Box::new(bayesian::Bayesian::new(units)),
+                _ => Box::new(iid::Iid::new(units)),
+            });
+        };
+        let order = order.ok_or(SchemeError::NeedsRows { scheme: self.name() })?;
+        // An unresolved "auto" is resolved by the caller; 1 row stands for it defensively.
+        let length = length.rows().unwrap_or(1.0);
+        let rows = order.len();
+        if kind != BlockKind::Stationary && length.fract() != 0.0 {
+            return Err(SchemeError::BlockNotWhole { length });
+        }
+        if length > rows as f64 {
+            return Err(SchemeError::BlockTooLong { length, rows });
+        }
+        Ok(Box::new(block::Blocks::new(kind, length, order)))
     }
 
     /// The resampler that enumerates every distinct resample, when there are at most `limit`.
     pub fn enumerator(&self, units: Units<'_>, limit: u64) -> Result<Box<dyn Resampler>, SchemeError> {
         match self {
             SchemeSpec::Iid {} => Ok(Box::new(exact::Exact::new(units, limit)?)),
-            SchemeSpec::Bayesian {} => Err(SchemeError::NotEnumerable { scheme: self.name() }),
+            _ => Err(SchemeError::NotEnumerable { scheme: self.name() }),
         }
     }
 }
