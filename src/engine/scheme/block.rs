@@ -71,7 +71,7 @@ impl<'de> Deserialize<'de> for BlockLength {
                 self.visit_f64(v as f64)
             }
             fn visit_f64<E: de::Error>(self, v: f64) -> Result<BlockLength, E> {
-                match v >= 1.0 && v <= 1e12 {
+                match (1.0..=1e12).contains(&v) {
                     true => Ok(BlockLength::Rows(v)),
                     false => Err(E::custom(format!("must be a length in rows of at least 1, or \"auto\"; got {v}"))),
                 }
