@@ -14,7 +14,7 @@ use crate::engine::job::{Include, InnerResamples};
 use crate::engine::plan::OnTimeLimit;
 use crate::engine::plan::{McTarget, ResampleCount};
 use crate::engine::rng::Seed;
-use crate::engine::scheme::SchemeSpec;
+use crate::engine::scheme::{BlockLength, SchemeSpec};
 use crate::engine::statistic::StatisticSpec;
 
 crate::decode_with_serde!(
@@ -161,6 +161,18 @@ fn checked_tag<'v>(v: &'v Value, at: &str, tag: &str, names: &[String], errs: &m
 impl Decode for SchemeSpec {
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
         let obj = checked_tag(v, at, "kind", &tag_values::<SchemeSpec>("kind"), errs)?;
+        // An internally tagged enum loses a field's place in serde's errors: a block length is
+        // read on its own first, so that its error points at it.
+        let mut lengths_ok = true;
+        for field in ["block_length", "mean_block_length"] {
+            if let Some(Err(e)) = obj.get(field).map(BlockLength::deserialize) {
+                errs.push(format!("{at}/{field}"), e.to_string());
+                lengths_ok = false;
+            }
+        }
+        if !lengths_ok {
+            return None;
+        }
         every_field(obj, at, errs, |v, t| {
             SchemeSpec::deserialize(serde_path_to_error::Deserializer::new(v, t))
         })

@@ -859,6 +859,42 @@ async fn a_suite_of_sixty_under_holm_still_claims_a_clear_regression() {
 }
 
 #[tokio::test]
+async fn a_block_scheme_resamples_each_sample_of_a_comparison_by_blocks() {
+    let app = TestApp::spawn().await;
+    // Invented: two days of a checkout's minute-by-minute latency, each drifting slowly.
+    let day = |level: f64, phase: f64| -> Vec<f64> {
+        (0..240)
+            .map(|m| ((level + 4.0 * ((m as f64) / 17.0 + phase).sin() + ((m * 37) % 7) as f64 * 0.3) * 100.0).round() / 100.0)
+            .collect()
+    };
+    let body = json!({"baseline": day(100.0, 0.0), "candidate": day(103.0, 1.0), "scheme": {"kind": "stationary_block"}, "seed": 5});
+    let v = ok(compare(&app, body.clone()).await);
+    let resolved = num(&v, "/contrast/scheme/mean_block_length");
+    // "auto" is the longer of the two samples' lengths.
+    let mut alone = Vec::new();
+    for sample in ["baseline", "candidate"] {
+        let r = ok(app
+            .post(
+                "/v1/interval",
+                &json!({"data": body[sample], "scheme": {"kind": "stationary_block"}, "seed": 5}),
+            )
+            .await);
+        alone.push(num(&r, "/scheme/mean_block_length"));
+    }
+    assert_eq!(resolved, alone[0].max(alone[1]), "{v}");
+    assert!(resolved > 1.0);
+    // Without named methods a block scheme keeps percentile first (no analytic error applies).
+    assert_eq!(v["decision"]["method"], "percentile", "{v}");
+    assert_eq!(v["contrast"]["diagnostics"]["jackknife"]["kind"], "blocks");
+    let again = ok(compare(
+        &app,
+        json!({"baseline": body["baseline"], "candidate": body["candidate"], "token": v["contrast"]["token"]}),
+    )
+    .await);
+    assert_eq!(without_timing(again["contrast"].clone()), without_timing(v["contrast"].clone()));
+}
+
+#[tokio::test]
 async fn a_comparison_alone_and_in_an_uncorrected_batch_are_identical() {
     let app = TestApp::spawn().await;
     let none = run_family(&app, "none").await;

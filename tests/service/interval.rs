@@ -591,6 +591,121 @@ async fn an_unknown_route_is_a_404_problem() {
 // tokens and replay
 // ---------------------------------------------------------------------------------------------
 
+/// Invented: hourly orders of a web shop over 12 days, in time order, with a daily rhythm and
+/// slow drift (autocorrelated from hour to hour).
+fn hourly_orders() -> Vec<f64> {
+    (0..288)
+        .map(|h| {
+            let hour = (h % 24) as f64;
+            let rhythm = 40.0 + 25.0 * (std::f64::consts::PI * (hour - 6.0) / 12.0).sin().max(0.0);
+            let drift = 6.0 * ((h as f64) / 37.0).sin();
+            (rhythm + drift + ((h * 7919) % 11) as f64 - 5.0).round()
+        })
+        .collect()
+}
+
+#[tokio::test]
+async fn every_block_scheme_resolves_auto_and_its_token_replays() {
+    let app = TestApp::spawn().await;
+    let data = hourly_orders();
+    for (kind, field) in [
+        ("moving_block", "block_length"),
+        ("circular_block", "block_length"),
+        ("stationary_block", "mean_block_length"),
+    ] {
+        let v = ok(post(
+            &app,
+            json!({"data": data, "scheme": {"kind": kind, field: "auto"}, "seed": 8, "resamples": 500}),
+        )
+        .await);
+        let length = v["scheme"][field]
+            .as_f64()
+            .unwrap_or_else(|| panic!("{kind}: resolved {}", v["scheme"]));
+        assert!(length > 1.0, "autocorrelated hours want blocks: {kind} {length}");
+        assert_eq!(v["diagnostics"]["jackknife"]["kind"], "blocks", "{v}");
+        let codes: Vec<&Value> = v["diagnostics"]["warnings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|w| &w["code"])
+            .collect();
+        assert!(!codes.contains(&&json!("serial_correlation")), "{kind}: {v}");
+        let again = ok(post(&app, json!({"data": data, "token": v["token"]})).await);
+        assert_eq!(without_timing(again), without_timing(v.clone()), "{kind}: replay differs");
+        // Omitted, the length is "auto".
+        let omitted = ok(post(&app, json!({"data": data, "scheme": {"kind": kind}, "seed": 8, "resamples": 500})).await);
+        assert_eq!(omitted["scheme"], v["scheme"]);
+    }
+    // The same hours under iid: the warning names the scheme to use.
+    let v = ok(post(&app, json!({"data": data, "seed": 8})).await);
+    let warning = v["diagnostics"]["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|w| w["code"] == "serial_correlation")
+        .cloned();
+    assert!(
+        warning.is_some_and(|w| w["message"].as_str().unwrap().contains("stationary_block")),
+        "{v}"
+    );
+}
+
+#[tokio::test]
+async fn block_schemes_refuse_what_does_not_fit_them() {
+    let app = TestApp::spawn().await;
+    let data = json!([3, 5, 4, 6, 5, 7]);
+    let refused = |v: &Value, at: &str, rule: &str| assert_eq!(rule_at(v, at).as_deref(), Some(rule), "{v}");
+    let v = invalid(
+        post(&app, json!({"data": data, "scheme": {"kind": "moving_block", "block_length": 9}})).await,
+        &["/scheme"],
+    );
+    refused(&v, "/scheme", "block_length");
+    assert!(message_at(&v, "/scheme").contains("longer than the series of 6 rows"), "{v}");
+    let v = invalid(
+        post(
+            &app,
+            json!({"data": data, "scheme": {"kind": "circular_block", "block_length": 2.5}}),
+        )
+        .await,
+        &["/scheme"],
+    );
+    refused(&v, "/scheme", "block_length");
+    for bad in [json!(0), json!("long"), json!(-2)] {
+        invalid(
+            post(
+                &app,
+                json!({"data": data, "scheme": {"kind": "stationary_block", "mean_block_length": bad}}),
+            )
+            .await,
+            &["/scheme/mean_block_length"],
+        );
+    }
+    let agg = json!({"values": [1, 2], "counts": [3, 4]});
+    let v = invalid(
+        post(&app, json!({"data": agg, "scheme": {"kind": "circular_block", "block_length": 2}})).await,
+        &["/scheme"],
+    );
+    refused(&v, "/scheme", "scheme_needs_rows");
+    let v = invalid(
+        post(
+            &app,
+            json!({"data": data, "scheme": {"kind": "moving_block"}, "methods": ["bca", "studentized"]}),
+        )
+        .await,
+        &["/methods/1"],
+    );
+    refused(&v, "/methods/1", "studentized_needs_independent_rows");
+    let v = invalid(
+        post(
+            &app,
+            json!({"data": data, "scheme": {"kind": "moving_block"}, "resamples": "exact"}),
+        )
+        .await,
+        &["/resamples"],
+    );
+    refused(&v, "/resamples", "exact_needs_iid");
+}
+
 #[tokio::test]
 async fn a_token_replays_to_an_identical_response() {
     let app = TestApp::spawn().await;

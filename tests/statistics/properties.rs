@@ -3,6 +3,7 @@
 
 use crate::common::*;
 use bandsaw::engine::plan::Resamples;
+use bandsaw::engine::scheme::BlockLength;
 use serde_json::json;
 
 const ALL: [Method; 5] = [Method::Percentile, Method::Basic, Method::Normal, Method::Bca, Method::Studentized];
@@ -62,6 +63,27 @@ fn results_are_identical_on_one_and_two_threads() {
             j
         },
     ];
+    // Every block scheme, with BCa (its jackknife leaves out blocks).
+    let blocks = [
+        SchemeSpec::MovingBlock {
+            block_length: BlockLength::Rows(4.0),
+        },
+        SchemeSpec::CircularBlock {
+            block_length: BlockLength::Rows(3.0),
+        },
+        SchemeSpec::StationaryBlock {
+            mean_block_length: BlockLength::Rows(3.5),
+        },
+    ];
+    let cases: Vec<Job> = cases
+        .into_iter()
+        .chain(blocks.into_iter().map(|scheme| {
+            let mut j = job(column(BASKETS.to_vec()), stat("median"), 2000);
+            j.methods = vec![Method::Percentile, Method::Bca];
+            set_scheme(&mut j, scheme);
+            j
+        }))
+        .collect();
     for j in &cases {
         let one = on_threads(1, j);
         let two = on_threads(2, j);
