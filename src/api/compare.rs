@@ -105,7 +105,7 @@ pub fn request_schema() -> RefOr<Schema> {
             crate::engine::plan::DEFAULT_RESAMPLES
         )),
         ("methods", format!(
-            "The interval methods; the verdict is read from the first. Without it, {} where the contrast has an analytic standard error (a statistic that has one, unpaired, not under a block scheme), since the studentized interval's far tails stay near nominal at small n; else {}.",
+            "The interval methods; the verdict is read from the first. Without it, {} where the contrast has an analytic standard error (a statistic that has one, unpaired, under `iid` or `bayesian`), since the studentized interval's far tails stay near nominal at small n; else {}.",
             quoted(&COMPARISON_METHODS),
             quoted(&DEFAULT_METHODS)
         )),
@@ -154,8 +154,8 @@ pub fn prepare(
     };
     let r = &req.resampling;
     let mut params = r.params();
-    // The analytic standard error assumes independent rows: not under a block scheme.
-    if !raw.contains_key("methods") && params.statistic.has_analytic_se() && !req.paired && params.scheme.block().is_none() {
+    // The analytic standard error assumes independent rows: iid or bayesian only.
+    if !raw.contains_key("methods") && params.statistic.has_analytic_se() && !req.paired && params.scheme.independent() {
         params.methods = Methods(COMPARISON_METHODS.to_vec());
     }
     // Unless told otherwise, enumerate where that is cheap; else draw the default number.

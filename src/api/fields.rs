@@ -158,6 +158,34 @@ fn checked_tag<'v>(v: &'v Value, at: &str, tag: &str, names: &[String], errs: &m
     }
 }
 
+/// A labelled scheme's labels: an array of strings or integers, one per row.
+fn labels_ok(v: Option<&Value>, at: &str, errs: &mut Errors) -> bool {
+    let Some(v) = v else {
+        errs.push(
+            at,
+            "is required: a label (string or integer) for each row, in the order of the rows".to_string(),
+        );
+        return false;
+    };
+    let Value::Array(items) = v else {
+        errs.push(
+            at,
+            format!("must be an array of labels (strings or integers), one per row; got {}", describe(v)),
+        );
+        return false;
+    };
+    let before = errs.len();
+    for (i, item) in items.iter().enumerate() {
+        if !(item.is_string() || item.is_i64()) {
+            errs.push(
+                format!("{at}/{i}"),
+                format!("a label is a string or an integer; got {}", describe(item)),
+            );
+        }
+    }
+    errs.len() == before
+}
+
 impl Decode for SchemeSpec {
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
         let obj = checked_tag(v, at, "kind", &tag_values::<SchemeSpec>("kind"), errs)?;
@@ -168,6 +196,12 @@ impl Decode for SchemeSpec {
             if let Some(Err(e)) = obj.get(field).map(BlockLength::deserialize) {
                 errs.push(format!("{at}/{field}"), e.to_string());
                 lengths_ok = false;
+            }
+        }
+        let kind = obj.get("kind").and_then(Value::as_str);
+        for (scheme, field) in [("stratified", "strata"), ("cluster", "clusters")] {
+            if kind == Some(scheme) {
+                lengths_ok &= labels_ok(obj.get(field), &format!("{at}/{field}"), errs);
             }
         }
         if !lengths_ok {

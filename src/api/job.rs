@@ -120,7 +120,7 @@ fn replayed(t: &str, asked: &Asked, limits: &Limits) -> Result<(Params, Option<C
 fn samples(asked: &Asked, params: &Params, comparing: Option<Comparing>) -> Samples {
     let part = |i: usize| Resampled {
         sample: asked.samples[i].0.clone(),
-        scheme: params.scheme,
+        scheme: params.scheme.clone(),
     };
     match comparing {
         None => Samples::One(part(0)),
@@ -204,6 +204,7 @@ fn refusal(e: RunError, time_limit_ms: u64, places: &[(&str, DataForm)]) -> Prob
             Rule::BlockLength,
             format!("{e}: give a whole number of rows up to the series' length, or \"auto\""),
         ),
+        RunError::Scheme(e @ SchemeError::Labels { field, .. }) => invalid(&format!("/scheme/{field}"), Rule::SchemeLabels, format!("{e}")),
         RunError::Scheme(e) => invalid("/resamples", Rule::ExactNeedsIid, format!("\"exact\": {e}; give a number of resamples")),
         RunError::WorkLimit { needed, limit } => Problem::work_limit(needed, limit),
         RunError::TimeLimit { done, requested, partial } => Problem::time_limit(done, requested, time_limit_ms, partial),

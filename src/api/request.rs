@@ -126,7 +126,7 @@ impl Resampling {
             target_mc_error: self.target_mc_error,
             levels: self.levels.clone(),
             methods: self.methods.clone(),
-            scheme: self.scheme,
+            scheme: self.scheme.clone(),
             include: self.include.clone(),
             inner_resamples: self.inner_resamples,
         }
@@ -197,13 +197,13 @@ pub fn check_params(p: &Params, limits: &Limits) -> Vec<(String, Rule, String)> 
             ));
         }
     }
-    if p.scheme.block().is_some() {
+    if !p.scheme.independent() {
         if let Some(i) = p.methods.0.iter().position(|m| *m == Method::Studentized) {
             out.push((
                 format!("/methods/{i}"),
-                Rule::StudentizedNeedsIndependentRows,
+                Rule::StudentizedNeedsIid,
                 format!(
-                    "the studentized interval needs a standard error of each resample that the {} scheme does not give (its rows are not independent); use percentile, bca, basic or normal",
+                    "the studentized interval needs a standard error of each resample that follows the {} scheme, which it does not have; use percentile, bca, basic or normal",
                     p.scheme.name()
                 ),
             ));

@@ -218,7 +218,7 @@ impl IntervalResponse {
             complete: o.complete,
             intervals: o.intervals.iter().map(IntervalJson::of).collect(),
             statistic: params.statistic.clone(),
-            scheme: params.scheme,
+            scheme: params.scheme.clone(),
             seed,
             diagnostics,
             histogram: e

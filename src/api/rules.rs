@@ -18,8 +18,10 @@ crate::wire_enum! {
         SchemeNeedsRows = "scheme_needs_rows",
         /// A block length is a whole number of rows (a mean block length any number) from 1 up to the series' length.
         BlockLength = "block_length",
-        /// The studentized interval needs independent rows: a block scheme's resamples have no standard error of their own to studentize by.
-        StudentizedNeedsIndependentRows = "studentized_needs_independent_rows",
+        /// The studentized interval under `iid` or `bayesian` only: a resample's own standard error would have to follow the scheme's blocks, strata or clusters too.
+        StudentizedNeedsIid = "studentized_needs_iid",
+        /// Labels of a stratified or cluster scheme: one per row; every stratum two rows or more; two clusters or more.
+        SchemeLabels = "scheme_labels",
         /// A number of resamples at most the server's `limits.max_resamples`.
         ResampleLimit = "resample_limit",
         /// At most the server's `limits.max_rows` rows (or distinct values), and counts that add up to what it can resample.

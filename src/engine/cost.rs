@@ -39,11 +39,14 @@ fn jackknife_work(job: &Job, target: &Target) -> f64 {
         return 0.0;
     }
     let cost = job.statistic.relative_cost();
-    // A block scheme's jackknife leaves out blocks, closed form or not.
+    // A block or cluster scheme's jackknife leaves out blocks or clusters, closed form or not.
     let blocks: Vec<f64> = target
         .resamplers()
         .iter()
-        .filter_map(|r| r.blocks().map(|(order, block)| jackknife::block_cost_in_units(order.len(), block)))
+        .filter_map(|r| {
+            let clusters = r.groups().map(|c| c.len() as f64 * c.iter().map(Vec::len).sum::<usize>() as f64);
+            clusters.or_else(|| r.blocks().map(|(order, block)| jackknife::block_cost_in_units(order.len(), block)))
+        })
         .collect();
     if !blocks.is_empty() {
         return cost * blocks.iter().sum::<f64>();

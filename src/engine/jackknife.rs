@@ -46,6 +46,8 @@ crate::wire_enum! {
         /// Blocks of consecutive rows left out in turn, under a block scheme (the delete-a-block
         /// jackknife of Künsch 1989).
         Blocks = "blocks",
+        /// Clusters left out in turn, under the cluster scheme.
+        Clusters = "clusters",
     }
 }
 
@@ -108,10 +110,29 @@ pub fn jackknife(est: &dyn Weighted, stop: &(dyn Fn() -> bool + Sync)) -> Result
 /// The jackknife of a sample as its scheme resamples it: under a block scheme, blocks of
 /// consecutive rows are left out ([`by_blocks`]), else [`jackknife`].
 pub fn of_part(est: &dyn Weighted, resampler: &dyn Resampler, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+    if let Some(clusters) = resampler.groups() {
+        return by_clusters(est, clusters, stop);
+    }
     match resampler.blocks() {
         Some((order, block)) => by_blocks(est, order, block, stop),
         None => jackknife(est, stop),
     }
+}
+
+/// Leave out one cluster in turn (the units of each in `clusters`), each counting once: the
+/// jackknife of the cluster scheme's unit of independence. `Ok(None)` with fewer than 3.
+pub fn by_clusters(est: &dyn Weighted, clusters: &[Vec<u32>], stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
+    if clusters.len() < 3 {
+        return Ok(None);
+    }
+    let members: Vec<Vec<usize>> = clusters.iter().map(|c| c.iter().map(|u| *u as usize).collect()).collect();
+    let values = leave_groups_out(est, est.units().base.to_vec(), &members, stop)?;
+    Ok(Some(Jackknife {
+        values,
+        multiplicity: vec![1.0; clusters.len()],
+        kind: JackknifeKind::Clusters,
+        groups: Some(clusters.len()),
+    }))
 }
 
 /// Leave out non-overlapping blocks of `block` consecutive rows (`order`: the unit of each row

@@ -694,7 +694,7 @@ async fn block_schemes_refuse_what_does_not_fit_them() {
         .await,
         &["/methods/1"],
     );
-    refused(&v, "/methods/1", "studentized_needs_independent_rows");
+    refused(&v, "/methods/1", "studentized_needs_iid");
     let v = invalid(
         post(
             &app,
@@ -704,6 +704,93 @@ async fn block_schemes_refuse_what_does_not_fit_them() {
         &["/resamples"],
     );
     refused(&v, "/resamples", "exact_needs_iid");
+}
+
+#[tokio::test]
+async fn stratified_and_cluster_schemes_read_labels_beside_the_rows() {
+    let app = TestApp::spawn().await;
+    // Invented: minutes to first reply on support tickets, by channel (strata) and by
+    // customer account (clusters), strings and integers alike.
+    let data = json!([12, 30, 8, 45, 22, 17, 60, 9, 14, 33, 27, 41]);
+    let strata = json!(["chat", "mail", "chat", "mail", "chat", "phone", "mail", "phone", "chat", "mail", "phone", "phone"]);
+    let clusters = json!([101, 101, 102, 102, 103, 103, 104, 104, 105, 105, 106, 106]);
+    for scheme in [
+        json!({"kind": "stratified", "strata": strata}),
+        json!({"kind": "cluster", "clusters": clusters}),
+    ] {
+        let v = ok(post(&app, json!({"data": data, "scheme": scheme, "seed": 4, "resamples": 800})).await);
+        assert_eq!(v["scheme"], scheme, "{v}");
+        let again = ok(post(&app, json!({"data": data, "token": v["token"]})).await);
+        assert_eq!(without_timing(again), without_timing(v.clone()), "{scheme}: replay differs");
+    }
+    let v = ok(post(
+        &app,
+        json!({"data": data, "scheme": {"kind": "cluster", "clusters": clusters}, "seed": 4}),
+    )
+    .await);
+    assert_eq!(v["diagnostics"]["jackknife"], json!({"kind": "clusters", "groups": 6}), "{v}");
+}
+
+#[tokio::test]
+async fn bad_labels_are_refused_at_their_field_with_a_way_out() {
+    let app = TestApp::spawn().await;
+    let data = json!([3, 5, 4, 6, 5, 7]);
+    let refused = |v: &Value, at: &str, rule: &str| assert_eq!(rule_at(v, at).as_deref(), Some(rule), "{v}");
+    let v = invalid(
+        post(
+            &app,
+            json!({"data": data, "scheme": {"kind": "stratified", "strata": [1, 1, 2, 2, 2]}}),
+        )
+        .await,
+        &["/scheme/strata"],
+    );
+    refused(&v, "/scheme/strata", "scheme_labels");
+    assert!(message_at(&v, "/scheme/strata").contains("5 labels for 6 rows"), "{v}");
+    let v = invalid(
+        post(
+            &app,
+            json!({"data": data, "scheme": {"kind": "stratified", "strata": ["a", "a", "b", "b", "b", "c"]}}),
+        )
+        .await,
+        &["/scheme/strata"],
+    );
+    assert!(message_at(&v, "/scheme/strata").contains("a stratum of one row"), "{v}");
+    let v = invalid(
+        post(
+            &app,
+            json!({"data": data, "scheme": {"kind": "cluster", "clusters": [7, 7, 7, 7, 7, 7]}}),
+        )
+        .await,
+        &["/scheme/clusters"],
+    );
+    assert!(message_at(&v, "/scheme/clusters").contains("one cluster"), "{v}");
+    invalid(
+        post(
+            &app,
+            json!({"data": data, "scheme": {"kind": "cluster", "clusters": [1, 2, true, 2, 1.5, 2]}}),
+        )
+        .await,
+        &["/scheme/clusters/2", "/scheme/clusters/4"],
+    );
+    invalid(
+        post(&app, json!({"data": data, "scheme": {"kind": "cluster"}})).await,
+        &["/scheme/clusters"],
+    );
+    let agg = json!({"values": [1, 2], "counts": [3, 4]});
+    let v = invalid(
+        post(&app, json!({"data": agg, "scheme": {"kind": "stratified", "strata": [1, 2]}})).await,
+        &["/scheme"],
+    );
+    refused(&v, "/scheme", "scheme_needs_rows");
+    let v = invalid(
+        post(
+            &app,
+            json!({"data": data, "scheme": {"kind": "cluster", "clusters": [1, 1, 2, 2, 3, 3]}, "methods": ["studentized"]}),
+        )
+        .await,
+        &["/methods/0"],
+    );
+    refused(&v, "/methods/0", "studentized_needs_iid");
 }
 
 #[tokio::test]

@@ -77,7 +77,18 @@ async fn catalog_lists_the_catalogue_and_the_limits_in_force() {
     assert_eq!(methods, ["percentile", "basic", "normal", "bca", "studentized"]);
     let schemes = v["schemes"].as_array().unwrap();
     let kinds: Vec<&str> = schemes.iter().map(|e| e["kind"].as_str().unwrap()).collect();
-    assert_eq!(kinds, ["iid", "bayesian", "moving_block", "circular_block", "stationary_block"]);
+    assert_eq!(
+        kinds,
+        [
+            "iid",
+            "bayesian",
+            "moving_block",
+            "circular_block",
+            "stationary_block",
+            "stratified",
+            "cluster"
+        ]
+    );
     for e in schemes {
         let keys: Vec<&String> = e.as_object().unwrap().keys().collect();
         assert_eq!(keys, ["kind", "description"], "{e}");

@@ -45,7 +45,7 @@ pub fn set_scheme(job: &mut Job, scheme: SchemeSpec) {
     match &mut job.samples {
         Samples::One(r) => r.scheme = scheme,
         Samples::Two { baseline, candidate, .. } => {
-            baseline.scheme = scheme;
+            baseline.scheme = scheme.clone();
             candidate.scheme = scheme;
         }
     }

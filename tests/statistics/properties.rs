@@ -3,7 +3,7 @@
 
 use crate::common::*;
 use bandsaw::engine::plan::Resamples;
-use bandsaw::engine::scheme::BlockLength;
+use bandsaw::engine::scheme::{BlockLength, Label};
 use serde_json::json;
 
 const ALL: [Method; 5] = [Method::Percentile, Method::Basic, Method::Normal, Method::Bca, Method::Studentized];
@@ -63,7 +63,7 @@ fn results_are_identical_on_one_and_two_threads() {
             j
         },
     ];
-    // Every block scheme, with BCa (its jackknife leaves out blocks).
+    // Every block and labelled scheme, with BCa (its jackknife leaves out blocks or clusters).
     let blocks = [
         SchemeSpec::MovingBlock {
             block_length: BlockLength::Rows(4.0),
@@ -73,6 +73,12 @@ fn results_are_identical_on_one_and_two_threads() {
         },
         SchemeSpec::StationaryBlock {
             mean_block_length: BlockLength::Rows(3.5),
+        },
+        SchemeSpec::Stratified {
+            strata: (0..BASKETS.len()).map(|i| Label::Integer((i % 3) as i64)).collect(),
+        },
+        SchemeSpec::Cluster {
+            clusters: (0..BASKETS.len()).map(|i| Label::Text(format!("c{}", i / 2))).collect(),
         },
     ];
     let cases: Vec<Job> = cases

@@ -144,6 +144,73 @@ fn exceedance_is_the_binomial_share_above_its_threshold() {
 }
 
 #[test]
+fn stratified_and_cluster_means_have_their_textbook_bootstrap_variances() {
+    use bandsaw::engine::scheme::Label;
+    // Invented: basket sizes (items) of 24 orders from three store regions of 6, 8 and 10
+    // orders. Resampled within regions, the mean's ideal bootstrap variance is
+    // Σ (n_h/n)² σ̂_h²/n_h with each region's plug-in variance (Davison & Hinkley 1997, §3.7).
+    let regions: [&[f64]; 3] = [
+        &[3.0, 5.0, 4.0, 6.0, 2.0, 5.0],
+        &[7.0, 9.0, 6.0, 8.0, 10.0, 7.0, 9.0, 8.0],
+        &[1.0, 2.0, 2.0, 3.0, 1.0, 4.0, 2.0, 3.0, 2.0, 1.0],
+    ];
+    let x: Vec<f64> = regions.iter().flat_map(|r| r.iter().copied()).collect();
+    let strata: Vec<Label> = regions
+        .iter()
+        .enumerate()
+        .flat_map(|(h, r)| r.iter().map(move |_| Label::Text(format!("region-{h}"))))
+        .collect();
+    let n = x.len() as f64;
+    let want = regions
+        .iter()
+        .map(|r| (r.len() as f64 / n).powi(2) * plugin_var(r) / r.len() as f64)
+        .sum::<f64>()
+        .sqrt();
+    let mut j = job(column(x), stat("mean"), 100_000, 21);
+    set_scheme(&mut j, SchemeSpec::Stratified { strata });
+    let o = run(&j);
+    // A sum of independent resampled means: near normal (kurtosis below 3.2), so the relative
+    // MC sd of the standard error is below √(2.2/(4B)) = 0.23 %; 4 of them 0.94 %.
+    let tol = 4.0 * rel_se_of_se(&o, 3.2) * want;
+    assert!(
+        (o.standard_error - want).abs() < tol,
+        "stratified {} vs {want} ± {tol}",
+        o.standard_error
+    );
+    // Invented: items per session of 8 shoppers with 4 sessions each (equal cluster sizes).
+    // Drawing whole shoppers, the mean is the mean of C shopper means, so its ideal bootstrap
+    // variance is the plug-in variance of the shopper means over C (Davison & Hinkley 1997,
+    // §3.8).
+    let shoppers: Vec<[f64; 4]> = vec![
+        [2.0, 3.0, 2.0, 4.0],
+        [7.0, 8.0, 6.0, 9.0],
+        [1.0, 1.0, 2.0, 1.0],
+        [5.0, 4.0, 6.0, 5.0],
+        [3.0, 3.0, 3.0, 2.0],
+        [9.0, 7.0, 8.0, 8.0],
+        [4.0, 6.0, 5.0, 5.0],
+        [2.0, 2.0, 1.0, 3.0],
+    ];
+    let x: Vec<f64> = shoppers.iter().flat_map(|s| s.iter().copied()).collect();
+    let clusters: Vec<Label> = (0..shoppers.len())
+        .flat_map(|c| std::iter::repeat_n(Label::Integer(c as i64), 4))
+        .collect();
+    let means: Vec<f64> = shoppers.iter().map(|s| s.iter().sum::<f64>() / 4.0).collect();
+    let want = (plugin_var(&means) / means.len() as f64).sqrt();
+    let mut j = job(column(x), stat("mean"), 100_000, 22);
+    set_scheme(&mut j, SchemeSpec::Cluster { clusters });
+    let o = run(&j);
+    // The mean of 8 drawn shopper means: kurtosis of the replicates below 3.2 as well (the
+    // shopper means are spread evenly, so their resampled mean is near normal); 0.94 %.
+    let tol = 4.0 * rel_se_of_se(&o, 3.2) * want;
+    assert!(
+        (o.standard_error - want).abs() < tol,
+        "cluster {} vs {want} ± {tol}",
+        o.standard_error
+    );
+}
+
+#[test]
 fn bayesian_bootstrap_variance_of_the_mean_is_sigma_squared_over_n_plus_1() {
     // Rubin (1981): under Dirichlet(1,…,1) weights the posterior variance of the mean is
     // σ̂²/(n + 1) (plug-in σ̂²).

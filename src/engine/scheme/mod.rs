@@ -10,11 +10,13 @@
 //!   Annals of Statistics 9(1);
 //! - [`exact`]: every distinct `iid` resample with its multinomial probability, Fisher, N. I.
 //!   & Hall, P. (1991), J. Statist. Plann. Inference 27;
-//! - [`block`]: moving, circular and stationary blocks of a series in time order.
+//! - [`block`]: moving, circular and stationary blocks of a series in time order;
+//! - [`grouped`]: rows within strata, or whole clusters, by a label beside each row.
 
 pub mod bayesian;
 pub mod block;
 pub mod exact;
+pub mod grouped;
 pub mod iid;
 
 use rand_chacha::ChaCha8Rng;
@@ -23,6 +25,7 @@ use utoipa::ToSchema;
 
 use crate::engine::statistic::Units;
 pub use block::{BlockKind, BlockLength};
+pub use grouped::Label;
 
 /// Draws resamples of one sample.
 pub trait Resampler: Send + Sync {
@@ -54,6 +57,11 @@ pub trait Resampler: Send + Sync {
     fn blocks(&self) -> Option<(&[u32], usize)> {
         None
     }
+
+    /// For the cluster scheme: the units of each cluster, which a jackknife leaves out in turn.
+    fn groups(&self) -> Option<&[Vec<u32>]> {
+        None
+    }
 }
 
 /// Per-worker scratch space of the nested bootstrap: an outer resample's rows written out.
@@ -68,7 +76,7 @@ pub struct Within {
 }
 
 /// How a resample is drawn.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize, ToSchema)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
 #[serde(tag = "kind", deny_unknown_fields)]
 pub enum SchemeSpec {
     /// n rows drawn with replacement (aggregated data: a multinomial over the distinct values).
@@ -101,6 +109,14 @@ pub enum SchemeSpec {
         #[schema(value_type = block::BlockLength)]
         mean_block_length: BlockLength,
     },
+    /// Rows resampled within each stratum, each stratum keeping its size; `strata` gives each
+    /// row's stratum (a string or an integer), one per row in order.
+    #[serde(rename = "stratified")]
+    Stratified { strata: Vec<Label> },
+    /// Whole clusters drawn with replacement; `clusters` gives each row's cluster (a string or
+    /// an integer), one per row in order.
+    #[serde(rename = "cluster")]
+    Cluster { clusters: Vec<Label> },
 }
 
 impl Default for SchemeSpec {
@@ -117,12 +133,19 @@ pub enum SchemeError {
     NotEnumerable { scheme: &'static str },
     #[error("enumerating would visit {} distinct resamples, above the limit of {limit}", count.map_or("more than 1.8e19".to_string(), |c| c.to_string()))]
     TooManyToEnumerate { count: Option<u64>, limit: u64 },
-    #[error("the {scheme} scheme strings together runs of consecutive rows, so it needs rows in the order observed (an array or columns), not aggregated data")]
+    #[error("the {scheme} scheme reads each row in the order observed, so it needs rows (an array or columns), not aggregated data")]
     NeedsRows { scheme: &'static str },
     #[error("a block of {length} rows is longer than the series of {rows} rows")]
     BlockTooLong { length: f64, rows: usize },
     #[error("a block length of {length} rows is not a whole number")]
     BlockNotWhole { length: f64 },
+    #[error("the {scheme} scheme {problem}")]
+    Labels {
+        scheme: &'static str,
+        /// The field holding the labels.
+        field: &'static str,
+        problem: String,
+    },
 }
 
 impl SchemeSpec {
@@ -133,7 +156,24 @@ impl SchemeSpec {
             SchemeSpec::MovingBlock { .. } => "moving_block",
             SchemeSpec::CircularBlock { .. } => "circular_block",
             SchemeSpec::StationaryBlock { .. } => "stationary_block",
+            SchemeSpec::Stratified { .. } => "stratified",
+            SchemeSpec::Cluster { .. } => "cluster",
         }
+    }
+
+    /// The field holding a labelled scheme's labels.
+    pub fn labels_field(&self) -> Option<&'static str> {
+        match self {
+            SchemeSpec::Stratified { .. } => Some("strata"),
+            SchemeSpec::Cluster { .. } => Some("clusters"),
+            _ => None,
+        }
+    }
+
+    /// True for the schemes whose rows are drawn independently (`iid`, `bayesian`): those an
+    /// analytic or nested standard error of a resample fits.
+    pub fn independent(&self) -> bool {
+        matches!(self, SchemeSpec::Iid {} | SchemeSpec::Bayesian {})
     }
 
     /// A block scheme's kind and length.
@@ -142,7 +182,7 @@ impl SchemeSpec {
             SchemeSpec::MovingBlock { block_length } => Some((BlockKind::Moving, block_length)),
             SchemeSpec::CircularBlock { block_length } => Some((BlockKind::Circular, block_length)),
             SchemeSpec::StationaryBlock { mean_block_length } => Some((BlockKind::Stationary, mean_block_length)),
-            SchemeSpec::Iid {} | SchemeSpec::Bayesian {} => None,
+            _ => None,
         }
     }
 
@@ -150,7 +190,7 @@ impl SchemeSpec {
     /// order): the longest any of them calls for, so that every series keeps its dependence.
     pub fn resolved(&self, series: &[&[f64]]) -> SchemeSpec {
         let Some((kind, BlockLength::Auto)) = self.block() else {
-            return *self;
+            return self.clone();
         };
         let length = series.iter().map(|x| block::automatic_length(x, kind)).fold(1.0, f64::max);
         let l = BlockLength::Rows(length);
@@ -165,13 +205,16 @@ impl SchemeSpec {
     /// is the unit of each row in time order (none for aggregated data, which block schemes
     /// refuse).
     pub fn resampler(&self, units: Units<'_>, order: Option<Vec<u32>>) -> Result<Box<dyn Resampler>, SchemeError> {
-        let Some((kind, length)) = self.block() else {
-            return Ok(match self {
-                SchemeSpec::Bayesian {} => Box::new(bayesian::Bayesian::new(units)),
-                _ => Box::new(iid::Iid::new(units)),
-            });
-        };
-        let order = order.ok_or(SchemeError::NeedsRows { scheme: self.name() })?;
+        let needs_rows = || SchemeError::NeedsRows { scheme: self.name() };
+        match self {
+            SchemeSpec::Iid {} => return Ok(Box::new(iid::Iid::new(units))),
+            SchemeSpec::Bayesian {} => return Ok(Box::new(bayesian::Bayesian::new(units))),
+            SchemeSpec::Stratified { strata } => return Ok(Box::new(grouped::Stratified::new(strata, &order.ok_or_else(needs_rows)?)?)),
+            SchemeSpec::Cluster { clusters } => return Ok(Box::new(grouped::Cluster::new(clusters, &order.ok_or_else(needs_rows)?)?)),
+            _ => {}
+        }
+        let (kind, length) = self.block().expect("a block scheme");
+        let order = order.ok_or_else(needs_rows)?;
         // An unresolved "auto" is resolved by the caller; 1 row stands for it defensively.
         let length = length.rows().unwrap_or(1.0);
         let rows = order.len();
