@@ -3,8 +3,9 @@
 use serde::{Deserialize, Serialize};
 use utoipa::ToSchema;
 
+use super::binned::{BinStatistic, CellMean};
 use super::{ColumnSpec, ColumnStatistic, Scratch};
-use crate::engine::data::{ColumnLayout, DataError};
+use crate::engine::data::{BinLayout, ColumnLayout, DataError};
 
 /// Arithmetic mean.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
@@ -15,6 +16,16 @@ impl ColumnSpec for MeanSpec {
     const ANALYTIC_SE: bool = true;
     fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
         Ok(Box::new(Mean))
+    }
+    const ON_BINS: bool = true;
+    /// At the bins' midpoints; refused with an overflow, whose values are unknown.
+    fn build_bins(&self, b: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
+        let overflow = || {
+            vec![DataError::OverflowMean {
+                overflow: b.base.last().map_or(0, |c| *c as u64),
+            }]
+        };
+        Some(CellMean::midpoints(b).map(|m| Box::new(m) as Box<dyn BinStatistic>).ok_or_else(overflow))
     }
 }
 
@@ -115,6 +126,10 @@ impl ColumnSpec for ExceedanceSpec {
         Ok(Box::new(Exceedance {
             above: values.iter().map(|v| if *v > t { 1.0 } else { 0.0 }).collect(),
         }))
+    }
+    const ON_BINS: bool = true;
+    fn build_bins(&self, b: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
+        Some(Ok(Box::new(CellMean::exceedance(b, self.threshold.get()))))
     }
 }
 

@@ -14,14 +14,19 @@
 //! - [`location`]: mean, trimmed mean, geometric mean, proportion;
 //! - [`quantile`]: median, quantile (Hyndman–Fan definition 7), interquartile range, MAD;
 //! - [`spread`]: variance, standard deviation, coefficient of variation;
-//! - [`association`]: ratio of sums, Pearson and Spearman correlation, least-squares slope.
+//! - [`association`]: ratio of sums, Pearson and Spearman correlation, least-squares slope;
+//! - [`binned`]: the statistics that a binned histogram gives (quantiles, mean, exceedance),
+//!   read under the assumptions it states.
 
 pub mod association;
+pub mod binned;
 pub mod location;
 pub mod quantile;
 pub mod spread;
 
-use crate::engine::data::{ColumnLayout, DataError, Form, Layout, Sample, TableLayout};
+use crate::engine::data::{BinLayout, ColumnLayout, DataError, Form, Layout, Sample, TableLayout};
+use crate::engine::diagnostics::Warning;
+use binned::BinStatistic;
 
 /// A statistic of one column, evaluated on a weighted view of it.
 pub trait ColumnStatistic: Send + Sync {
@@ -82,6 +87,16 @@ pub trait ColumnSpec {
     fn reads_extremes(&self, _n: f64) -> bool {
         false
     }
+
+    /// True when the statistic can be read from binned data: then [`ColumnSpec::build_bins`]
+    /// builds it.
+    const ON_BINS: bool = false;
+
+    /// Check binned data (every problem at once) and build the statistic of it; `None` for a
+    /// statistic that bins cannot give.
+    fn build_bins(&self, _b: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
+        None
+    }
 }
 
 /// The parameters of a statistic of named columns. See [`ColumnSpec`].
@@ -140,6 +155,12 @@ macro_rules! statistics {
                 match self { $(Self::$variant(_) => Shape::$shape),+ }
             }
 
+            /// The names of the statistics that can be read from binned data, in catalogue order.
+            pub fn on_bins() -> Vec<&'static str> {
+                let on = [$(statistics!(@bins $shape, $spec)),+];
+                Self::NAMES.iter().zip(on).filter(|(_, on)| *on).map(|(name, _)| *name).collect()
+            }
+
             /// The shape and analytic-standard-error fact of the statistic called `name`.
             pub fn facts_of(name: &str) -> Option<(Shape, bool)> {
                 match name { $($wire => Some((Shape::$shape, statistics!(@analytic $shape, $spec))),)+ _ => None }
@@ -184,6 +205,8 @@ macro_rules! statistics {
     };
     (@analytic Column, $spec:ty) => { <$spec as ColumnSpec>::ANALYTIC_SE };
     (@analytic Table, $spec:ty) => { <$spec as TableSpec>::ANALYTIC_SE };
+    (@bins Column, $spec:ty) => { <$spec as ColumnSpec>::ON_BINS };
+    (@bins Table, $spec:ty) => { false };
     (@build Column, $s:ident, $sample:ident, $wire:tt) => { build_column($s, $sample, $wire) };
     (@build Table, $s:ident, $sample:ident, $wire:tt) => { build_table($s, $sample, $wire) };
 }
@@ -218,12 +241,27 @@ fn build_column(spec: &impl ColumnSpec, sample: &Sample, name: &'static str) -> 
         Form::Column(x) => x.as_slice(),
         Form::Aggregated { values, .. } => values.as_slice(),
         Form::Columns { .. } => return Err(vec![DataError::NeedsOneColumn { statistic: name }]),
+        Form::Bins { .. } => return build_bins(spec, sample, name),
     };
     let Layout::Column(data) = Layout::of(sample) else {
         return Err(vec![DataError::NeedsOneColumn { statistic: name }]);
     };
     let stat = spec.build(&data, values)?;
     Ok(Estimator::Column { data, stat })
+}
+
+fn build_bins(spec: &impl ColumnSpec, sample: &Sample, name: &'static str) -> Result<Estimator, Vec<DataError>> {
+    let Layout::Bins(data) = Layout::of(sample) else {
+        unreachable!("bins lay out as bins")
+    };
+    let refused = || {
+        vec![DataError::NotOnBins {
+            statistic: name,
+            usable: StatisticSpec::on_bins(),
+        }]
+    };
+    let stat = spec.build_bins(&data).ok_or_else(refused)??;
+    Ok(Estimator::Bins { data, stat })
 }
 
 fn build_table(spec: &impl TableSpec, sample: &Sample, name: &'static str) -> Result<Estimator, Vec<DataError>> {
@@ -265,6 +303,10 @@ pub enum Estimator {
         data: TableLayout,
         stat: Box<dyn TableStatistic>,
     },
+    Bins {
+        data: BinLayout,
+        stat: Box<dyn BinStatistic>,
+    },
 }
 
 /// What a resampler needs to know of a sample's units.
@@ -283,6 +325,7 @@ impl Estimator {
         match self {
             Estimator::Column { data, stat } => stat.evaluate(data, w, scratch),
             Estimator::Table { data, stat } => stat.evaluate(data, w, scratch),
+            Estimator::Bins { data, stat } => stat.evaluate(data, w, scratch),
         }
     }
 
@@ -290,6 +333,16 @@ impl Estimator {
         match self {
             Estimator::Column { data, stat } => stat.jackknife_closed(data),
             Estimator::Table { data, stat } => stat.jackknife_closed(data),
+            Estimator::Bins { data, stat } => stat.jackknife_closed(data),
+        }
+    }
+
+    /// True when the jackknife has a closed form, given what the statistic's spec says of its
+    /// statistic on raw or aggregated data (on bins the built statistic says).
+    pub fn closed_jackknife(&self, spec: bool) -> bool {
+        match self {
+            Estimator::Bins { stat, .. } => stat.closed_jackknife(),
+            _ => spec,
         }
     }
 
@@ -297,6 +350,15 @@ impl Estimator {
         match self {
             Estimator::Column { data, stat } => stat.analytic_se(data, w),
             Estimator::Table { data, stat } => stat.analytic_se(data, w),
+            Estimator::Bins { data, stat } => stat.analytic_se(data, w),
+        }
+    }
+
+    /// What reading the statistic from this data assumed that the caller should know.
+    pub fn warnings(&self) -> Vec<Warning> {
+        match self {
+            Estimator::Bins { data, stat } => stat.warnings(data),
+            _ => Vec::new(),
         }
     }
 
@@ -313,6 +375,11 @@ impl Estimator {
                 total: data.rows as f64,
                 raw: true,
             },
+            Estimator::Bins { data, .. } => Units {
+                base: &data.base,
+                total: data.total,
+                raw: false,
+            },
         }
     }
 
@@ -323,11 +390,11 @@ impl Estimator {
     }
 
     /// The unit of every row in the order sent, when the units are rows (raw rows of a column,
-    /// or the rows of named columns); `None` for aggregated data, which has no rows.
+    /// or the rows of named columns); `None` for aggregated and binned data, which have no rows.
     pub fn unit_of_row(&self) -> Option<Vec<u32>> {
         match self {
             Estimator::Column { data, .. } if data.raw => Some(data.unit_of_row.clone()),
-            Estimator::Column { .. } => None,
+            Estimator::Column { .. } | Estimator::Bins { .. } => None,
             Estimator::Table { data, .. } => Some((0..data.rows as u32).collect()),
         }
     }
