@@ -124,7 +124,12 @@ fn aggregated(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<R
             None
         }
     };
-    let counts = counts(obj.get("counts"), at, "is required with values: how often each value was observed", errs);
+    let counts = counts(
+        obj.get("counts"),
+        at,
+        "is required with values: how often each value was observed",
+        errs,
+    );
     Some(Sample::aggregated(values?, counts?))
 }
 
@@ -143,13 +148,21 @@ fn bins(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<Result<
             None
         }
     };
-    let counts = counts(bins.get("counts"), &at, "is required: the observations in each bin, one count per bin", errs);
+    let counts = counts(
+        bins.get("counts"),
+        &at,
+        "is required: the observations in each bin, one count per bin",
+        errs,
+    );
     let overflow = match bins.get("overflow") {
         None => Some(0),
         Some(v) => whole(v).or_else(|| {
             errs.push(
                 format!("{at}/overflow"),
-                format!("must be a whole number of observations above the last edge (0 or more); got {}", describe(v)),
+                format!(
+                    "must be a whole number of observations above the last edge (0 or more); got {}",
+                    describe(v)
+                ),
             );
             None
         }),
@@ -256,7 +269,9 @@ pub fn data_error(form: DataForm, e: DataError, data_at: &str, statistic_at: &st
     let way_out = match &e {
         DataError::NeedsColumns { .. } => ": send data as {\"columns\": {\"x\": [...], \"y\": [...]}}",
         DataError::NeedsOneColumn { .. } => ": send data as an array of numbers or as {\"values\": [...], \"counts\": [...]}",
-        DataError::NotOnBins { .. } => "; any statistic of one column takes the observations themselves (an array, or {\"values\": [...], \"counts\": [...]})",
+        DataError::NotOnBins { .. } => {
+            "; any statistic of one column takes the observations themselves (an array, or {\"values\": [...], \"counts\": [...]})"
+        }
         _ => "",
     };
     (at, rule, format!("{e}{way_out}"))
@@ -317,7 +332,10 @@ fn aggregated_schema() -> ObjectBuilder {
 }
 
 fn count_schema() -> ObjectBuilder {
-    ObjectBuilder::new().schema_type(Type::Integer).minimum(Some(0)).maximum(Some(MAX_COUNT))
+    ObjectBuilder::new()
+        .schema_type(Type::Integer)
+        .minimum(Some(0))
+        .maximum(Some(MAX_COUNT))
 }
 
 fn bins_schema() -> ObjectBuilder {
@@ -325,16 +343,15 @@ fn bins_schema() -> ObjectBuilder {
         .schema_type(Type::Object)
         .property(
             "edges",
-            ArrayBuilder::new()
-                .items(value_ref())
-                .min_items(Some(2))
-                .description(Some("k + 1 strictly increasing edges of k bins; bin i holds the observations in (edges[i], edges[i + 1]].")),
+            ArrayBuilder::new().items(value_ref()).min_items(Some(2)).description(Some(
+                "k + 1 strictly increasing edges of k bins; bin i holds the observations in (edges[i], edges[i + 1]].",
+            )),
         )
         .property(
             "counts",
-            ArrayBuilder::new()
-                .items(count_schema())
-                .description(Some("The observations in each bin: k whole numbers (0 to 2^53 − 1), one fewer than the edges.")),
+            ArrayBuilder::new().items(count_schema()).description(Some(
+                "The observations in each bin: k whole numbers (0 to 2^53 − 1), one fewer than the edges.",
+            )),
         )
         .property(
             "overflow",

@@ -78,7 +78,10 @@ pub enum DataError {
     #[error("the counts and the overflow add up to {n} observation(s); a bootstrap needs at least {MIN_OBSERVATIONS}")]
     TooFewBinned { n: u64 },
     #[error("the {statistic} cannot be read from binned data (only the bins' counts are known, not the values inside them); on bins use {}", usable.join(", "))]
-    NotOnBins { statistic: &'static str, usable: Vec<&'static str> },
+    NotOnBins {
+        statistic: &'static str,
+        usable: Vec<&'static str>,
+    },
     #[error("{overflow} observation(s) lie above the last edge at unknown values, so the mean of these bins is undefined; add a bin up to a bound on the largest value, or use the median, a quantile or the exceedance of a threshold")]
     OverflowMean { overflow: u64 },
     #[error("needs at least one column")]
@@ -225,7 +228,10 @@ impl Sample {
         if edges.len() < 2 {
             errors.push(DataError::TooFewEdges { len: edges.len() });
         } else if counts.len() != bins {
-            errors.push(DataError::BinCounts { counts: counts.len(), bins });
+            errors.push(DataError::BinCounts {
+                counts: counts.len(),
+                bins,
+            });
         }
         let n = counts.iter().try_fold(overflow, |a, c| a.checked_add(*c));
         match n {
@@ -426,7 +432,10 @@ impl BinLayout {
             last_edge,
         };
         let cells = counts.iter().enumerate().map(|(i, c)| (edges[i], edges[i + 1], *c));
-        for (lo, hi, c) in cells.chain(std::iter::once((last_edge, last_edge, overflow))).filter(|cell| cell.2 > 0) {
+        for (lo, hi, c) in cells
+            .chain(std::iter::once((last_edge, last_edge, overflow)))
+            .filter(|cell| cell.2 > 0)
+        {
             b.lower.push(lo);
             b.upper.push(hi);
             b.base.push(c as f64);
@@ -533,7 +542,10 @@ mod tests {
             e.iter().map(DataError::place).collect::<Vec<_>>(),
             [Place::Edge(2), Place::Edge(3), Place::Counts]
         );
-        assert_eq!(Sample::bins(vec![0.0, 1.0], vec![0], 1).unwrap_err(), [DataError::TooFewBinned { n: 1 }]);
+        assert_eq!(
+            Sample::bins(vec![0.0, 1.0], vec![0], 1).unwrap_err(),
+            [DataError::TooFewBinned { n: 1 }]
+        );
     }
 
     #[test]
@@ -542,7 +554,10 @@ mod tests {
         assert_eq!(s.n(), 10);
         assert_eq!(s.rows(), 3);
         let Layout::Bins(b) = Layout::of(&s) else { panic!("bins") };
-        assert_eq!((b.lower, b.upper, b.base), (vec![0.0, 2.0, 4.0], vec![1.0, 4.0, 4.0], vec![3.0, 2.0, 5.0]));
+        assert_eq!(
+            (b.lower, b.upper, b.base),
+            (vec![0.0, 2.0, 4.0], vec![1.0, 4.0, 4.0], vec![3.0, 2.0, 5.0])
+        );
         assert!(b.overflow);
         assert_eq!((b.total, b.last_edge), (10.0, 4.0));
         let other = Sample::bins(vec![0.0, 1.0, 2.0, 4.0], vec![3, 0, 2], 4).unwrap();

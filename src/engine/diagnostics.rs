@@ -6,6 +6,7 @@
 
 use crate::engine::distribution::ReplicateDistribution;
 use crate::engine::interval::{Level, Method};
+use crate::engine::statistic::binned::Note;
 
 crate::wire_enum! {
     /// A stable, machine-readable warning code.
@@ -278,9 +279,17 @@ fn inexact_nested(f: &Facts) -> Option<Warning> {
     })
 }
 
+/// The warning for what reading a statistic from bins assumed.
+pub fn of_note(note: Note) -> Warning {
+    match note {
+        Note::QuantileInOverflow { p, last_edge, in_data } => quantile_in_overflow(p, last_edge, in_data),
+        Note::GroupedMean => grouped_mean(),
+    }
+}
+
 /// The warning for a quantile at `p` of binned data that lies above the last edge `last_edge`
 /// (`in_data`), or that resamples can put there.
-pub fn quantile_in_overflow(p: f64, last_edge: f64, in_data: bool) -> Warning {
+fn quantile_in_overflow(p: f64, last_edge: f64, in_data: bool) -> Warning {
     let where_ = if in_data {
         "of the data lies in the overflow"
     } else {
@@ -295,7 +304,7 @@ pub fn quantile_in_overflow(p: f64, last_edge: f64, in_data: bool) -> Warning {
 }
 
 /// The warning for a mean read from bins at their midpoints.
-pub fn grouped_mean() -> Warning {
+fn grouped_mean() -> Warning {
     Warning::new(
         WarningCode::GroupedMean,
         "the mean of binned data counts every observation at its bin's midpoint, so it is off by as much as the observations lean to one side of their bins (at most half the widest occupied bin); the interval covers the midpoints' mean, not this grouping error. Use narrower bins, or the median or a quantile, which bins give more faithfully.",

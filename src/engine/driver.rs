@@ -466,7 +466,7 @@ impl Prepared {
         let job = &self.job;
         let mut warnings = diagnostics::assess(&self.facts(reps, &s, jack.is_none()));
         // What reading the statistic from each sample assumed (binned data), once per code.
-        for w in self.target.estimators().iter().flat_map(|e| e.warnings()) {
+        for w in self.target.estimators().iter().flat_map(|e| e.notes()).map(diagnostics::of_note) {
             if !warnings.iter().any(|seen| seen.code == w.code) {
                 warnings.push(w);
             }

@@ -20,10 +20,19 @@
 //! Weights over the cells take the place of the counts on a resample, so every formula holds
 //! for `iid` (multinomial counts), Bayesian (Dirichlet) weights and the jackknife alike.
 
-use super::location::{jackknife_means, weighted_mean, weighted_plugin_variance};
-use super::Scratch;
+use super::{jackknife_means, weighted_mean, weighted_plugin_variance, Scratch};
 use crate::engine::data::BinLayout;
-use crate::engine::diagnostics::{self, Warning};
+
+/// What reading a statistic from bins assumed that the caller should know; the driver words it
+/// as a warning.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Note {
+    /// The quantile at `p` lies above the last edge in the data (`in_data`), or a resample can
+    /// put it there; it is reported as `last_edge`.
+    QuantileInOverflow { p: f64, last_edge: f64, in_data: bool },
+    /// The mean counts each observation at its bin's midpoint.
+    GroupedMean,
+}
 
 /// A resample can put a quantile in the overflow when the overflow's resampled count can reach
 /// the (1 − p)·N observations above the quantile: when its mean plus this many binomial
@@ -51,7 +60,7 @@ pub trait BinStatistic: Send + Sync {
     }
 
     /// What reading the statistic from these bins assumed that the caller should know.
-    fn warnings(&self, _b: &BinLayout) -> Vec<Warning> {
+    fn notes(&self, _b: &BinLayout) -> Vec<Note> {
         Vec::new()
     }
 }
@@ -61,10 +70,11 @@ pub fn binned_quantile(b: &BinLayout, w: &[f64], p: f64) -> f64 {
     let total: f64 = w.iter().sum();
     let r = p * total;
     let mut before = 0.0;
-    for j in 0..b.bins() {
-        let cum = before + w[j];
-        if w[j] > 0.0 && cum >= r {
-            return b.lower[j] + (r - before) / w[j] * (b.upper[j] - b.lower[j]);
+    let cells = w.iter().zip(&b.lower).zip(&b.upper).take(b.bins());
+    for ((wj, lo), hi) in cells {
+        let cum = before + wj;
+        if *wj > 0.0 && cum >= r {
+            return lo + (r - before) / wj * (hi - lo);
         }
         before = cum;
     }
@@ -73,12 +83,16 @@ pub fn binned_quantile(b: &BinLayout, w: &[f64], p: f64) -> f64 {
 
 /// The warning for a quantile at `p` that falls in the overflow of the data, or that a resample
 /// can put there.
-fn overflow_warning(b: &BinLayout, p: f64) -> Option<Warning> {
+fn overflow_note(b: &BinLayout, p: f64) -> Option<Note> {
     let overflow = *b.base.last().filter(|_| b.overflow)?;
     let n = b.total;
     let in_data = p * n > n - overflow;
     let reach = overflow + OVERFLOW_REACH_SD * (overflow * (1.0 - overflow / n)).sqrt();
-    (in_data || reach > (1.0 - p) * n).then(|| diagnostics::quantile_in_overflow(p, b.last_edge, in_data))
+    (in_data || reach > (1.0 - p) * n).then_some(Note::QuantileInOverflow {
+        p,
+        last_edge: b.last_edge,
+        in_data,
+    })
 }
 
 /// The p-quantile of bins (the median is p = 0.5).
@@ -90,8 +104,8 @@ impl BinStatistic for BinQuantile {
     fn evaluate(&self, b: &BinLayout, w: &[f64], _: &mut Scratch) -> f64 {
         binned_quantile(b, w, self.p)
     }
-    fn warnings(&self, b: &BinLayout) -> Vec<Warning> {
-        overflow_warning(b, self.p).into_iter().collect()
+    fn notes(&self, b: &BinLayout) -> Vec<Note> {
+        overflow_note(b, self.p).into_iter().collect()
     }
 }
 
@@ -102,8 +116,8 @@ impl BinStatistic for BinIqr {
     fn evaluate(&self, b: &BinLayout, w: &[f64], _: &mut Scratch) -> f64 {
         binned_quantile(b, w, 0.75) - binned_quantile(b, w, 0.25)
     }
-    fn warnings(&self, b: &BinLayout) -> Vec<Warning> {
-        overflow_warning(b, 0.75).into_iter().collect()
+    fn notes(&self, b: &BinLayout) -> Vec<Note> {
+        overflow_note(b, 0.75).into_iter().collect()
     }
 }
 
@@ -158,8 +172,8 @@ impl BinStatistic for CellMean {
         let total: f64 = w.iter().sum();
         Some((weighted_plugin_variance(&self.value, w) / total).sqrt())
     }
-    fn warnings(&self, _: &BinLayout) -> Vec<Warning> {
-        self.grouped.then(diagnostics::grouped_mean).into_iter().collect()
+    fn notes(&self, _: &BinLayout) -> Vec<Note> {
+        self.grouped.then_some(Note::GroupedMean).into_iter().collect()
     }
 }
 
@@ -183,7 +197,15 @@ mod tests {
         // (20, 50], 20 + (7 − 4)/6 · 30 = 35. p = 0.5: r = 10 = C₃, 50. p = 0.95: r = 19, bin
         // (50, 100], 50 + 9/10 · 50 = 95. p = 0: the lower edge of the first bin, 0. p = 1: 100.
         let b = layout(&[0.0, 10.0, 20.0, 50.0, 100.0], &[4, 0, 6, 10], 0);
-        for (p, want) in [(0.1, 5.0), (0.2, 10.0), (0.35, 35.0), (0.5, 50.0), (0.95, 95.0), (0.0, 0.0), (1.0, 100.0)] {
+        for (p, want) in [
+            (0.1, 5.0),
+            (0.2, 10.0),
+            (0.35, 35.0),
+            (0.5, 50.0),
+            (0.95, 95.0),
+            (0.0, 0.0),
+            (1.0, 100.0),
+        ] {
             let got = binned_quantile(&b, &b.base, p);
             assert!((got - want).abs() < 1e-12, "p = {p}: {got} vs {want}");
         }
@@ -199,10 +221,13 @@ mod tests {
         let b = layout(&[0.0, 100.0, 200.0], &[10, 7], 3);
         assert_eq!(binned_quantile(&b, &b.base, 0.85), 200.0);
         assert_eq!(binned_quantile(&b, &b.base, 0.9), 200.0);
-        let w = BinQuantile { p: 0.9 }.warnings(&b);
-        assert_eq!(w[0].code, diagnostics::WarningCode::QuantileInOverflow);
+        let notes = BinQuantile { p: 0.9 }.notes(&b);
+        assert!(matches!(notes[..], [Note::QuantileInOverflow { in_data: true, .. }]));
+        // At p = 0.85 the data's quantile is the last edge, and resamples can cross it.
+        let notes = BinQuantile { p: 0.85 }.notes(&b);
+        assert!(matches!(notes[..], [Note::QuantileInOverflow { in_data: false, .. }]));
         // The median needs 10 observations in the overflow, beyond its reach of 3 + 4·√(3·0.85) = 9.4.
-        assert!(BinQuantile { p: 0.5 }.warnings(&b).is_empty());
+        assert!(BinQuantile { p: 0.5 }.notes(&b).is_empty());
     }
 
     #[test]
@@ -229,6 +254,9 @@ mod tests {
             w[j] -= 1.0;
             assert!((v - m.evaluate(&b, &w, &mut Scratch::default())).abs() < 1e-12);
         }
-        assert!(CellMean::midpoints(&layout(&[0.0, 1.0], &[2], 1)).is_none(), "overflow has no midpoint");
+        assert!(
+            CellMean::midpoints(&layout(&[0.0, 1.0], &[2], 1)).is_none(),
+            "overflow has no midpoint"
+        );
     }
 }

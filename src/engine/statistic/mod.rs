@@ -25,8 +25,7 @@ pub mod quantile;
 pub mod spread;
 
 use crate::engine::data::{BinLayout, ColumnLayout, DataError, Form, Layout, Sample, TableLayout};
-use crate::engine::diagnostics::Warning;
-use binned::BinStatistic;
+use binned::{BinStatistic, Note};
 
 /// A statistic of one column, evaluated on a weighted view of it.
 pub trait ColumnStatistic: Send + Sync {
@@ -355,9 +354,9 @@ impl Estimator {
     }
 
     /// What reading the statistic from this data assumed that the caller should know.
-    pub fn warnings(&self) -> Vec<Warning> {
+    pub fn notes(&self) -> Vec<Note> {
         match self {
-            Estimator::Bins { data, stat } => stat.warnings(data),
+            Estimator::Bins { data, stat } => stat.notes(data),
             _ => Vec::new(),
         }
     }
@@ -452,6 +451,36 @@ impl Scratch {
     }
 }
 
+pub(crate) fn weighted_mean(x: &[f64], w: &[f64]) -> f64 {
+    let (mut sw, mut sx) = (0.0, 0.0);
+    for (xi, wi) in x.iter().zip(w) {
+        sw += wi;
+        sx += wi * xi;
+    }
+    sx / sw
+}
+
+/// Plug-in (divide by Σw) variance of a weighted column, two-pass.
+pub(crate) fn weighted_plugin_variance(x: &[f64], w: &[f64]) -> f64 {
+    let m = weighted_mean(x, w);
+    let (mut sw, mut ss) = (0.0, 0.0);
+    for (xi, wi) in x.iter().zip(w) {
+        let d = xi - m;
+        sw += wi;
+        ss += wi * d * d;
+    }
+    ss / sw
+}
+
+/// Leave-one-out means in O(n): removing one observation of unit j gives (S − x_j)/(N − 1).
+/// Computed on centred values so that large offsets do not cancel.
+pub(crate) fn jackknife_means(x: &[f64], base: &[f64]) -> Vec<f64> {
+    let n: f64 = base.iter().sum();
+    let m = weighted_mean(x, base);
+    let s: f64 = x.iter().zip(base).map(|(xi, wi)| wi * (xi - m)).sum();
+    x.iter().map(|xi| m + (s - (xi - m)) / (n - 1.0)).collect()
+}
+
 /// Weighted sums over two columns, centred for numerical stability: returns
 /// (W, mean x, mean y, Sxx, Syy, Sxy) with S the weighted sums of centred products.
 pub(crate) fn weighted_moments2(x: &[f64], y: &[f64], w: &[f64]) -> (f64, f64, f64, f64, f64, f64) {
@@ -532,6 +561,28 @@ pub(crate) mod tests {
             assert_eq!(est.analytic_se(&base).is_some(), spec.has_analytic_se(), "{spec:?}");
             assert_eq!(est.jackknife_closed().is_some(), spec.has_closed_jackknife(), "{spec:?}");
             assert_eq!(StatisticSpec::facts_of(spec.name()), Some((spec.shape(), spec.has_analytic_se())));
+        }
+    }
+
+    /// Exactly the statistics listed as on bins build on bins, and their facts hold there.
+    #[test]
+    fn the_statistics_on_bins_are_those_that_build_on_bins() {
+        let bins = Sample::bins(vec![0.0, 1.0, 2.0, 4.0], vec![3, 1, 2], 0).unwrap();
+        for spec in every_statistic() {
+            let on = StatisticSpec::on_bins().contains(&spec.name());
+            match spec.build(&bins) {
+                Ok(est) => {
+                    assert!(on && matches!(est, Estimator::Bins { .. }), "{spec:?}");
+                    let base = est.units().base.to_vec();
+                    assert_eq!(est.analytic_se(&base).is_some(), spec.has_analytic_se(), "{spec:?}");
+                    let closed = est.closed_jackknife(spec.has_closed_jackknife());
+                    assert_eq!(est.jackknife_closed().is_some(), closed, "{spec:?}");
+                }
+                Err(e) => assert!(
+                    !on && matches!(e[0], DataError::NotOnBins { .. } | DataError::NeedsColumns { .. }),
+                    "{spec:?}"
+                ),
+            }
         }
     }
 
