@@ -132,3 +132,46 @@ def interval(method, reps, theta, level, accel=None, rep_se=None, se_hat=None):
     if method == "studentized":
         return studentized(reps, rep_se, theta, se_hat, level)
     raise ValueError(method)
+
+
+# ---------------------------------------------------------------- binned histograms
+
+def binned_quantile(edges, counts, overflow, p):
+    """The p-quantile of a binned histogram by docs/api.md's rule (observations spread evenly
+    in each bin, position r = p*N with N the total count including the overflow; past the last
+    edge, the last edge). Written with searchsorted over the occupied bins' cumulative counts."""
+    edges = np.asarray(edges, dtype=float)
+    counts = np.asarray(counts, dtype=float)
+    cum = np.cumsum(counts)
+    r = p * (cum[-1] + overflow)
+    if r > cum[-1]:
+        return float(edges[-1])
+    occupied = np.flatnonzero(counts > 0)
+    i = occupied[np.searchsorted(cum[occupied], r, side="left")]
+    below = cum[i] - counts[i]
+    return float(edges[i] + (r - below) / counts[i] * (edges[i + 1] - edges[i]))
+
+
+def binned_quantile_rows(edges, k, p):
+    """The same rule, vectorised over rows of resampled counts `k` (bins, then the overflow),
+    for p > 0: the first bin whose cumulative count reaches r is then always occupied."""
+    edges = np.asarray(edges, dtype=float)
+    bins = k[:, :-1].astype(float)
+    cum = np.cumsum(bins, axis=1)
+    r = p * k.sum(axis=1)
+    reached = cum >= r[:, None]
+    inside = reached.any(axis=1)
+    i = np.where(inside, reached.argmax(axis=1), 0)
+    rows = np.arange(len(k))
+    below = cum[rows, i] - bins[rows, i]
+    q = edges[i] + (r - below) / np.where(inside, bins[rows, i], 1.0) * (edges[i + 1] - edges[i])
+    return np.where(inside, q, edges[-1])
+
+
+def multinomial_bootstrap_quantiles(edges, counts, overflow, p, b, seed):
+    """b replicates of the binned p-quantile, each from counts redrawn as a multinomial over
+    the bins and the overflow with the observed shares."""
+    cells = np.append(np.asarray(counts, dtype=float), overflow)
+    n = int(cells.sum())
+    k = np.random.default_rng(seed).multinomial(n, cells / n, size=b)
+    return binned_quantile_rows(edges, k, p)

@@ -335,3 +335,47 @@ def test_same_seed_same_answer(server_url):
     assert a["replicates"] == b["replicates"]
     assert a["intervals"] == b["intervals"]
     assert a["estimate"] == b["estimate"] and a["standard_error"] == b["standard_error"]
+
+
+# ---------------------------------------------------------------- binned histograms
+# Checked with numpy 2.4.6 (Python 3.11).
+
+# Invented: checkout latencies (ms) of one hour, as a monitoring system's histogram; the second
+# has an empty bin and a heavier overflow.
+BINNED = {
+    "checkout": ([0, 25, 50, 100, 250, 500, 1000, 2500], [1830, 2960, 1410, 520, 190, 60, 18], 12),
+    "gappy": ([0, 10, 20, 40, 80, 160], [14, 0, 9, 22, 5], 7),
+}
+
+
+@pytest.mark.parametrize("name", sorted(BINNED))
+@pytest.mark.parametrize("p", [0.0, 0.1, 0.25, 0.5, 0.9, 0.95, 0.99, 1.0])
+def test_binned_quantiles_follow_the_documented_rule(server_url, name, p):
+    edges, counts, overflow = BINNED[name]
+    body = {"data": {"bins": {"edges": edges, "counts": counts, "overflow": overflow}},
+            "statistic": {"name": "quantile", "p": p}, "resamples": 10, "seed": 1,
+            "methods": ["percentile"]}
+    got = interval_ok(server_url, body)["estimate"]
+    want = br.binned_quantile(edges, counts, overflow, p)
+    assert got == pytest.approx(want, rel=REL, abs=1e-12), (name, p)
+    if p > 0:
+        k = np.array([list(counts) + [overflow]])
+        assert br.binned_quantile_rows(edges, k, p)[0] == pytest.approx(want, rel=REL)
+
+
+@pytest.mark.parametrize("name,p", [("checkout", 0.5), ("checkout", 0.95), ("gappy", 0.5), ("gappy", 0.8)])
+def test_binned_quantile_standard_error_matches_a_numpy_multinomial_bootstrap(server_url, name, p):
+    edges, counts, overflow = BINNED[name]
+    b_server, b_numpy = 20000, 400000
+    body = {"data": {"bins": {"edges": edges, "counts": counts, "overflow": overflow}},
+            "statistic": {"name": "quantile", "p": p}, "resamples": b_server, "seed": SEED,
+            "methods": ["percentile"]}
+    se = interval_ok(server_url, body)["standard_error"]
+    reps = br.multinomial_bootstrap_quantiles(edges, counts, overflow, p, b_numpy, SEED)
+    ref = reps.std(ddof=1)
+    # A standard error from B replicates has relative sd sqrt((kappa - 1)/(4B)), kappa the
+    # replicates' kurtosis (taken from the numpy replicates); both estimates carry it, so the
+    # tolerance is 4 sds of their difference.
+    kappa = np.mean((reps - reps.mean()) ** 4) / reps.var() ** 2
+    sd = ref * math.sqrt((kappa - 1) / 4 * (1 / b_server + 1 / b_numpy))
+    assert abs(se - ref) < 4 * sd, (name, p, se, ref, sd)

@@ -54,10 +54,20 @@ fn numbers(v: &Value, at: &str, errs: &mut Errors) -> Option<Vec<f64>> {
     bad.is_empty().then(|| items.iter().map(|x| x.as_f64().expect("checked")).collect())
 }
 
-fn counts(v: Option<&Value>, at: &str, errs: &mut Errors) -> Option<Vec<u64>> {
+/// A whole number of observations (0 or more; `2.0` counts, as JSON Schema reads it).
+fn whole(c: &Value) -> Option<u64> {
+    c.as_u64().or_else(|| {
+        c.as_f64()
+            .filter(|f| f.fract() == 0.0 && *f >= 0.0 && *f < 9.007_199_254_740_992e15)
+            .map(|f| f as u64)
+    })
+}
+
+/// The `counts` array at `at`; `required` says what it is for when it is missing.
+fn counts(v: Option<&Value>, at: &str, required: &str, errs: &mut Errors) -> Option<Vec<u64>> {
     let at = format!("{at}/counts");
     let Some(v) = v else {
-        errs.push(at, "is required with values: how often each value was observed");
+        errs.push(at, required);
         return None;
     };
     let Value::Array(items) = v else {
@@ -69,11 +79,7 @@ fn counts(v: Option<&Value>, at: &str, errs: &mut Errors) -> Option<Vec<u64>> {
         .iter()
         .enumerate()
         .filter_map(|(i, c)| {
-            let k = c.as_u64().or_else(|| {
-                c.as_f64()
-                    .filter(|f| f.fract() == 0.0 && *f >= 0.0 && *f < 9.007_199_254_740_992e15)
-                    .map(|f| f as u64)
-            });
+            let k = whole(c);
             if k.is_none() {
                 errs.push(
                     format!("{at}/{i}"),
@@ -118,8 +124,50 @@ fn aggregated(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<R
             None
         }
     };
-    let counts = counts(obj.get("counts"), at, errs);
+    let counts = counts(
+        obj.get("counts"),
+        at,
+        "is required with values: how often each value was observed",
+        errs,
+    );
     Some(Sample::aggregated(values?, counts?))
+}
+
+fn bins(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<Result<Sample, Vec<DataError>>> {
+    unknown_fields(obj, &["bins"], at, errs);
+    let at = format!("{at}/bins");
+    let Some(Value::Object(bins)) = obj.get("bins") else {
+        errs.push(&at, "must be an object {\"edges\": [...], \"counts\": [...], \"overflow\": 0}");
+        return None;
+    };
+    unknown_fields(bins, &["edges", "counts", "overflow"], &at, errs);
+    let edges = match bins.get("edges") {
+        Some(x) => numbers(x, &format!("{at}/edges"), errs),
+        None => {
+            errs.push(format!("{at}/edges"), "is required: the k + 1 strictly increasing edges of k bins");
+            None
+        }
+    };
+    let counts = counts(
+        bins.get("counts"),
+        &at,
+        "is required: the observations in each bin, one count per bin",
+        errs,
+    );
+    let overflow = match bins.get("overflow") {
+        None => Some(0),
+        Some(v) => whole(v).or_else(|| {
+            errs.push(
+                format!("{at}/overflow"),
+                format!(
+                    "must be a whole number of observations above the last edge (0 or more); got {}",
+                    describe(v)
+                ),
+            );
+            None
+        }),
+    };
+    Some(Sample::bins(edges?, counts?, overflow?))
 }
 
 impl Decode for Data {
@@ -127,11 +175,12 @@ impl Decode for Data {
         let sample = match v {
             Value::Array(_) => Sample::column(numbers(v, at, errs)?),
             Value::Object(obj) if obj.contains_key("columns") => columns(obj, at, errs)?,
+            Value::Object(obj) if obj.contains_key("bins") => bins(obj, at, errs)?,
             Value::Object(obj) if obj.contains_key("values") || obj.contains_key("counts") => aggregated(obj, at, errs)?,
             Value::Object(_) => {
                 errs.push(
                     at,
-                    "an object here must be {\"values\": [...], \"counts\": [...]} or {\"columns\": {...}}",
+                    "an object here must be {\"values\": [...], \"counts\": [...]}, {\"columns\": {...}} or {\"bins\": {...}}",
                 );
                 return None;
             }
@@ -143,6 +192,7 @@ impl Decode for Data {
         let form = match v {
             Value::Array(_) => DataForm::Column,
             _ if v.get("columns").is_some() => DataForm::Columns,
+            _ if v.get("bins").is_some() => DataForm::Bins,
             _ => DataForm::Aggregated,
         };
         match sample {
@@ -162,6 +212,7 @@ pub enum DataForm {
     Column,
     Aggregated,
     Columns,
+    Bins,
 }
 
 impl DataForm {
@@ -170,6 +221,7 @@ impl DataForm {
             Form::Column(_) => DataForm::Column,
             Form::Aggregated { .. } => DataForm::Aggregated,
             Form::Columns { .. } => DataForm::Columns,
+            Form::Bins { .. } => DataForm::Bins,
         }
     }
 }
@@ -181,8 +233,14 @@ pub fn pointer(form: DataForm, place: &Place, data_at: &str, statistic_at: &str)
         Place::Whole => data_at.to_string(),
         Place::Value(i) if form == DataForm::Aggregated => format!("{data_at}/values/{i}"),
         Place::Value(i) => format!("{data_at}/{i}"),
+        Place::Count(i) if form == DataForm::Bins => format!("{data_at}/bins/counts/{i}"),
+        Place::Counts if form == DataForm::Bins => format!("{data_at}/bins/counts"),
         Place::Count(i) => format!("{data_at}/counts/{i}"),
         Place::Counts => format!("{data_at}/counts"),
+        Place::Edge(i) => format!("{data_at}/bins/edges/{i}"),
+        Place::Edges => format!("{data_at}/bins/edges"),
+        Place::Overflow => format!("{data_at}/bins/overflow"),
+        Place::Statistic => statistic_at.to_string(),
         Place::Column(name) => format!("{data_at}/columns/{}", escape_token(name)),
         Place::ColumnValue(name, i) => format!("{data_at}/columns/{}/{i}", escape_token(name)),
         Place::Parameter(param) => format!("{statistic_at}/{param}"),
@@ -195,11 +253,15 @@ pub fn data_error(form: DataForm, e: DataError, data_at: &str, statistic_at: &st
     let at = pointer(form, &e.place(), data_at, statistic_at);
     let rule = match &e {
         // The schema states these: magnitudes, at least one column, two values in a column.
-        DataError::TooLarge { .. } | DataError::NoColumns => None,
+        DataError::TooLarge { .. } | DataError::NoColumns | DataError::TooFewEdges { .. } => None,
         DataError::TooFew { .. } if form == DataForm::Column => None,
-        DataError::TooFew { .. } | DataError::LengthMismatch { .. } => Some(Rule::SampleShape),
+        DataError::TooFew { .. }
+        | DataError::LengthMismatch { .. }
+        | DataError::EdgeNotIncreasing { .. }
+        | DataError::BinCounts { .. }
+        | DataError::TooFewBinned { .. } => Some(Rule::SampleShape),
         DataError::CountsOverflow => Some(Rule::RowLimit),
-        DataError::NeedsColumns { .. } | DataError::NeedsOneColumn { .. } => Some(Rule::StatisticShape),
+        DataError::NeedsColumns { .. } | DataError::NeedsOneColumn { .. } | DataError::NotOnBins { .. } => Some(Rule::StatisticShape),
         DataError::MissingColumn { .. } => Some(Rule::ColumnNames),
         DataError::NotPaired { .. } => Some(Rule::PairedRows),
         _ => Some(Rule::StatisticDomain),
@@ -207,6 +269,9 @@ pub fn data_error(form: DataForm, e: DataError, data_at: &str, statistic_at: &st
     let way_out = match &e {
         DataError::NeedsColumns { .. } => ": send data as {\"columns\": {\"x\": [...], \"y\": [...]}}",
         DataError::NeedsOneColumn { .. } => ": send data as an array of numbers or as {\"values\": [...], \"counts\": [...]}",
+        DataError::NotOnBins { .. } => {
+            "; any statistic of one column takes the observations themselves (an array, or {\"values\": [...], \"counts\": [...]})"
+        }
         _ => "",
     };
     (at, rule, format!("{e}{way_out}"))
@@ -255,7 +320,7 @@ fn aggregated_schema() -> ObjectBuilder {
         .property(
             "counts",
             ArrayBuilder::new()
-                .items(ObjectBuilder::new().schema_type(Type::Integer).minimum(Some(0)).maximum(Some(MAX_COUNT)))
+                .items(count_schema())
                 .description(Some("How often each value was observed: one whole number (0 to 2^53 − 1) per value.")),
         )
         .required("values")
@@ -263,6 +328,48 @@ fn aggregated_schema() -> ObjectBuilder {
         .additional_properties(Some(AdditionalProperties::FreeForm(false)))
         .description(Some(
             "Aggregated data: each value observed `counts[i]` times (a histogram of latencies, a tally of ratings). The sample size is the sum of the counts.",
+        ))
+}
+
+fn count_schema() -> ObjectBuilder {
+    ObjectBuilder::new()
+        .schema_type(Type::Integer)
+        .minimum(Some(0))
+        .maximum(Some(MAX_COUNT))
+}
+
+fn bins_schema() -> ObjectBuilder {
+    let bins = ObjectBuilder::new()
+        .schema_type(Type::Object)
+        .property(
+            "edges",
+            ArrayBuilder::new().items(value_ref()).min_items(Some(2)).description(Some(
+                "k + 1 strictly increasing edges of k bins; bin i holds the observations in (edges[i], edges[i + 1]].",
+            )),
+        )
+        .property(
+            "counts",
+            ArrayBuilder::new().items(count_schema()).description(Some(
+                "The observations in each bin: k whole numbers (0 to 2^53 − 1), one fewer than the edges.",
+            )),
+        )
+        .property(
+            "overflow",
+            count_schema()
+                .default(Some(0.into()))
+                .description(Some("The observations above the last edge, at unknown values. Default 0.")),
+        )
+        .required("edges")
+        .required("counts")
+        .additional_properties(Some(AdditionalProperties::FreeForm(false)));
+    ObjectBuilder::new()
+        .schema_type(Type::Object)
+        .title(Some("Bins"))
+        .property("bins", bins)
+        .required("bins")
+        .additional_properties(Some(AdditionalProperties::FreeForm(false)))
+        .description(Some(
+            "A binned histogram as monitoring systems keep it: `counts[i]` observations in (edges[i], edges[i + 1]] and `overflow` above the last edge. A resample redraws the counts (a multinomial over the bins and the overflow). Only the statistics that bins give can be read from it: `median`, `quantile` and `iqr` (observations spread evenly inside each bin), `mean` (at the bins' midpoints; not with an overflow) and `exceedance`.",
         ))
 }
 
@@ -295,8 +402,9 @@ impl PartialSchema for Data {
             )
             .item(aggregated_schema())
             .item(columns_schema())
+            .item(bins_schema())
             .description(Some(
-                "A sample: an array of numbers (one column); `{\"values\": [...], \"counts\": [...]}` (each value observed `counts[i]` times); or `{\"columns\": {\"x\": [...], \"y\": [...]}}` (equal-length named columns read together as rows, for `ratio`, `correlation` and `slope`). Rows keep the order they were sent in. At most the server's `limits.max_rows` rows.",
+                "A sample: an array of numbers (one column); `{\"values\": [...], \"counts\": [...]}` (each value observed `counts[i]` times); `{\"columns\": {\"x\": [...], \"y\": [...]}}` (equal-length named columns read together as rows, for `ratio`, `correlation` and `slope`); or `{\"bins\": {\"edges\": [...], \"counts\": [...], \"overflow\": 0}}` (a binned histogram). Rows keep the order they were sent in. At most the server's `limits.max_rows` rows.",
             ))
             .into()
     }

@@ -13,7 +13,7 @@ use super::fields::{
 };
 use super::rules::Rule;
 use crate::config::Limits;
-use crate::engine::data::Sample;
+use crate::engine::data::{Place, Sample};
 use crate::engine::interval::Method;
 use crate::engine::job::{Contrast, InnerResamples, Job, Samples};
 use crate::engine::plan::{self, McTarget};
@@ -156,6 +156,11 @@ impl IntervalRequest {
 /// The most observations aggregated counts may add up to, per row the server accepts.
 const OBSERVATIONS_PER_ROW: u64 = 1_000_000;
 
+/// True for a sample given as counts (aggregated or binned), whose observations outnumber its rows.
+fn counted(sample: &Sample) -> bool {
+    matches!(DataForm::of(sample), DataForm::Aggregated | DataForm::Bins)
+}
+
 /// A sample against the server's row limit.
 pub fn check_rows(sample: &Sample, at: &str, limits: &Limits, errs: &mut Errors) {
     if sample.rows() as u64 > limits.max_rows {
@@ -168,9 +173,9 @@ pub fn check_rows(sample: &Sample, at: &str, limits: &Limits, errs: &mut Errors)
                 limits.max_rows
             ),
         );
-    } else if DataForm::of(sample) == DataForm::Aggregated && sample.n() > limits.max_rows.saturating_mul(OBSERVATIONS_PER_ROW) {
+    } else if counted(sample) && sample.n() > limits.max_rows.saturating_mul(OBSERVATIONS_PER_ROW) {
         errs.refuse(
-            format!("{at}/counts"),
+            super::data::pointer(DataForm::of(sample), &Place::Counts, at, ""),
             Rule::RowLimit,
             "the counts add up to more than this server can resample",
         );

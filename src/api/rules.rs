@@ -28,15 +28,15 @@ crate::wire_enum! {
         RowLimit = "row_limit",
         /// At most the server's `limits.max_batch_jobs` jobs in a batch.
         BatchLimit = "batch_limit",
-        /// Columns of equal length, one count per value, and at least 2 observations in all.
+        /// Columns of equal length, one count per value, bins with strictly increasing edges and one count per bin, and at least 2 observations in all.
         SampleShape = "sample_shape",
         /// Paired runs (`"paired": true`): baseline and candidate rows given one by one (not aggregated), the same number on both sides, pair i being the i-th row of each.
         PairedRows = "paired_rows",
-        /// A statistic of one column needs an array or values with counts; a statistic of named columns needs `columns`.
+        /// A statistic of one column needs an array or values with counts; a statistic of named columns needs `columns`; binned data (`bins`) gives only the statistics that can be read from bins (the message lists them).
         StatisticShape = "statistic_shape",
         /// A statistic's column parameters must name columns of the data.
         ColumnNames = "column_names",
-        /// The data must be in the statistic's domain: positive values for the geometric mean, 0 and 1 for a proportion, a mean other than 0 for the coefficient of variation, a denominator that does not sum to 0, columns that are not constant, and a statistic defined on at least some resamples.
+        /// The data must be in the statistic's domain: positive values for the geometric mean, 0 and 1 for a proportion, a mean other than 0 for the coefficient of variation, no overflow for the mean of bins, a denominator that does not sum to 0, columns that are not constant, and a statistic defined on at least some resamples.
         StatisticDomain = "statistic_domain",
         /// A token stands in for the parameters it records; send one or the other.
         TokenReplacesParameters = "token_replaces_parameters",

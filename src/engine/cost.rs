@@ -59,7 +59,7 @@ fn jackknife_work(job: &Job, target: &Target) -> f64 {
             let per: f64 = target
                 .estimators()
                 .iter()
-                .map(|e| jackknife::cost_in_units(closed, e.units().base.len(), e.units().raw))
+                .map(|e| jackknife::cost_in_units(e.closed_jackknife(closed), e.units().base.len(), e.units().raw))
                 .sum();
             cost * per
         }

@@ -42,6 +42,14 @@ pub enum Place {
     ColumnValue(String, usize),
     /// A parameter of the statistic that names a column.
     Parameter(&'static str),
+    /// The statistic as a whole.
+    Statistic,
+    /// The i-th edge of binned data.
+    Edge(usize),
+    /// The edges of binned data as a whole.
+    Edges,
+    /// The overflow of binned data.
+    Overflow,
 }
 
 /// Why a sample cannot be used, or why a statistic cannot be computed on it. The texts speak of
@@ -61,6 +69,21 @@ pub enum DataError {
     },
     #[error("the counts add up to more than can be resampled")]
     CountsOverflow,
+    #[error("must be above the edge before it ({previous}); got {edge}: edges are strictly increasing, one more than there are bins")]
+    EdgeNotIncreasing { index: usize, previous: f64, edge: f64 },
+    #[error("has {len} edge(s); k bins need k + 1 edges, so at least 2")]
+    TooFewEdges { len: usize },
+    #[error("has {counts} count(s) for {bins} bin(s); k + 1 edges bound k bins, so send one count per bin (one fewer count than edges)")]
+    BinCounts { counts: usize, bins: usize },
+    #[error("the counts and the overflow add up to {n} observation(s); a bootstrap needs at least {MIN_OBSERVATIONS}")]
+    TooFewBinned { n: u64 },
+    #[error("the {statistic} cannot be read from binned data (only the bins' counts are known, not the values inside them); on bins use {}", usable.join(", "))]
+    NotOnBins {
+        statistic: &'static str,
+        usable: Vec<&'static str>,
+    },
+    #[error("{overflow} observation(s) lie above the last edge at unknown values, so the mean of these bins is undefined; add a bin up to a bound on the largest value, or use the median, a quantile or the exceedance of a threshold")]
+    OverflowMean { overflow: u64 },
     #[error("needs at least one column")]
     NoColumns,
     #[error("the statistic {statistic} reads named columns, and this sample is one column")]
@@ -112,6 +135,11 @@ impl DataError {
             DataError::NotPositive { index, .. } | DataError::NotBinary { index, .. } => Place::Value(*index),
             DataError::MissingColumn { parameter, .. } => Place::Parameter(parameter),
             DataError::ConstantColumn { column, .. } | DataError::ZeroSum { column } => Place::Column(column.clone()),
+            DataError::EdgeNotIncreasing { index, .. } => Place::Edge(*index),
+            DataError::BinCounts { .. } | DataError::TooFewBinned { .. } => Place::Counts,
+            DataError::TooFewEdges { .. } => Place::Edges,
+            DataError::NotOnBins { .. } => Place::Statistic,
+            DataError::OverflowMean { .. } => Place::Overflow,
             _ => Place::Whole,
         }
     }
@@ -131,16 +159,19 @@ pub enum Form {
     Aggregated { values: Vec<f64>, counts: Vec<u64> },
     /// Equal-length named columns read together as rows, in the order given.
     Columns { names: Vec<String>, columns: Vec<Vec<f64>> },
+    /// A binned histogram: `counts[i]` observations in (edges[i], edges[i + 1]], and
+    /// `overflow` above the last edge.
+    Bins { edges: Vec<f64>, counts: Vec<u64>, overflow: u64 },
 }
 
 impl Sample {
-    /// Each column of the sample in the order observed (none for aggregated data, whose order
-    /// is lost): what a block scheme reads as a series.
+    /// Each column of the sample in the order observed (none for aggregated or binned data,
+    /// whose order is lost): what a block scheme reads as a series.
     pub fn series(&self) -> Vec<&[f64]> {
         match self.form() {
             Form::Column(x) => vec![x.as_slice()],
             Form::Columns { columns, .. } => columns.iter().map(Vec::as_slice).collect(),
-            Form::Aggregated { .. } => vec![],
+            Form::Aggregated { .. } | Form::Bins { .. } => vec![],
         }
     }
 }
@@ -191,6 +222,38 @@ impl Sample {
         checked(Form::Aggregated { values, counts }, errors)
     }
 
+    /// A binned histogram: k + 1 strictly increasing edges (at least 2), k counts, and the
+    /// observations above the last edge.
+    pub fn bins(edges: Vec<f64>, counts: Vec<u64>, overflow: u64) -> Result<Sample, Vec<DataError>> {
+        let mut errors = Vec::new();
+        too_large(&edges, Place::Edge, &mut errors);
+        for (i, pair) in edges.windows(2).enumerate() {
+            if pair[1] <= pair[0] {
+                errors.push(DataError::EdgeNotIncreasing {
+                    index: i + 1,
+                    previous: pair[0],
+                    edge: pair[1],
+                });
+            }
+        }
+        let bins = edges.len().saturating_sub(1);
+        if edges.len() < 2 {
+            errors.push(DataError::TooFewEdges { len: edges.len() });
+        } else if counts.len() != bins {
+            errors.push(DataError::BinCounts {
+                counts: counts.len(),
+                bins,
+            });
+        }
+        let n = counts.iter().try_fold(overflow, |a, c| a.checked_add(*c));
+        match n {
+            None => errors.push(DataError::CountsOverflow),
+            Some(n) if errors.is_empty() && n < MIN_OBSERVATIONS => errors.push(DataError::TooFewBinned { n }),
+            Some(_) => {}
+        }
+        checked(Form::Bins { edges, counts, overflow }, errors)
+    }
+
     /// Named columns of equal length.
     pub fn columns(names: Vec<String>, columns: Vec<Vec<f64>>) -> Result<Sample, Vec<DataError>> {
         let mut errors = Vec::new();
@@ -222,16 +285,18 @@ impl Sample {
             Form::Column(x) => x.len() as u64,
             Form::Aggregated { counts, .. } => counts.iter().sum(),
             Form::Columns { columns, .. } => columns.first().map_or(0, |c| c.len() as u64),
+            Form::Bins { counts, overflow, .. } => counts.iter().sum::<u64>() + overflow,
         }
     }
 
-    /// The number of rows as sent (for aggregated data, of distinct values): what the server's
-    /// row limit bounds.
+    /// The number of rows as sent (for aggregated data, of distinct values; for bins, of bins):
+    /// what the server's row limit bounds.
     pub fn rows(&self) -> usize {
         match &self.0 {
             Form::Column(x) => x.len(),
             Form::Aggregated { values, .. } => values.len(),
             Form::Columns { columns, .. } => columns.first().map_or(0, |c| c.len()),
+            Form::Bins { counts, .. } => counts.len(),
         }
     }
 
@@ -245,6 +310,8 @@ impl Sample {
                 constant(&seen)
             }
             Form::Columns { columns, .. } => columns.iter().all(|c| constant(c)),
+            // Values inside a bin are spread over it, so no histogram is constant.
+            Form::Bins { .. } => false,
         }
     }
 
@@ -282,6 +349,15 @@ impl Sample {
                     h.update(name.as_bytes());
                     values(&mut h, col);
                 }
+            }
+            Form::Bins { edges, counts, overflow } => {
+                h.update(b"bins");
+                values(&mut h, edges);
+                h.update((counts.len() as u64).to_le_bytes());
+                for c in counts {
+                    h.update(c.to_le_bytes());
+                }
+                h.update(overflow.to_le_bytes());
             }
         }
         h.finalize().into()
@@ -336,6 +412,56 @@ impl ColumnLayout {
     }
 }
 
+/// A binned histogram laid out for resampling. Its units are its cells that hold observations:
+/// the bins with a count above 0, in order, then the overflow when it holds any (empty cells
+/// can never be drawn, and leaving them out keeps an enumeration to the cells that can). A
+/// resample's weights are counts per cell, so `iid` redraws them as a multinomial.
+#[derive(Debug, Clone)]
+pub struct BinLayout {
+    /// The lower edge of each unit (the last edge for the overflow).
+    pub lower: Vec<f64>,
+    /// The upper edge of each unit (the last edge for the overflow).
+    pub upper: Vec<f64>,
+    /// The count of each unit.
+    pub base: Vec<f64>,
+    /// The sample size, Σ base, the overflow included.
+    pub total: f64,
+    /// True when the last unit is the overflow.
+    pub overflow: bool,
+    /// The last edge: where a quantile that falls in the overflow is reported.
+    pub last_edge: f64,
+}
+
+impl BinLayout {
+    pub fn of(edges: &[f64], counts: &[u64], overflow: u64) -> BinLayout {
+        let last_edge = *edges.last().expect("checked: at least two edges");
+        let mut b = BinLayout {
+            lower: Vec::new(),
+            upper: Vec::new(),
+            base: Vec::new(),
+            total: 0.0,
+            overflow: overflow > 0,
+            last_edge,
+        };
+        let cells = counts.iter().enumerate().map(|(i, c)| (edges[i], edges[i + 1], *c));
+        for (lo, hi, c) in cells
+            .chain(std::iter::once((last_edge, last_edge, overflow)))
+            .filter(|cell| cell.2 > 0)
+        {
+            b.lower.push(lo);
+            b.upper.push(hi);
+            b.base.push(c as f64);
+            b.total += c as f64;
+        }
+        b
+    }
+
+    /// The units that are bins (all but the overflow).
+    pub fn bins(&self) -> usize {
+        self.base.len() - usize::from(self.overflow)
+    }
+}
+
 /// Named columns laid out for resampling; units are rows, in the order sent.
 #[derive(Debug, Clone)]
 pub struct TableLayout {
@@ -357,6 +483,7 @@ impl TableLayout {
 pub enum Layout {
     Column(ColumnLayout),
     Table(TableLayout),
+    Bins(BinLayout),
 }
 
 impl Layout {
@@ -373,6 +500,7 @@ impl Layout {
                     base: vec![1.0; rows],
                 })
             }
+            Form::Bins { edges, counts, overflow } => Layout::Bins(BinLayout::of(edges, counts, *overflow)),
         }
     }
 }
@@ -421,5 +549,30 @@ mod tests {
         let e = Sample::columns(vec!["x".into(), "y".into()], vec![vec![1.0, 2.0], vec![1.0]]).unwrap_err();
         assert_eq!(e[0].place(), Place::Column("y".into()));
         assert!(Sample::aggregated(vec![1.0, 2.0], vec![0, 1]).is_err(), "one observation in all");
+        let e = Sample::bins(vec![0.0, 1.0, 1.0, 0.5], vec![1, 2], 0).unwrap_err();
+        assert_eq!(
+            e.iter().map(DataError::place).collect::<Vec<_>>(),
+            [Place::Edge(2), Place::Edge(3), Place::Counts]
+        );
+        assert_eq!(
+            Sample::bins(vec![0.0, 1.0], vec![0], 1).unwrap_err(),
+            [DataError::TooFewBinned { n: 1 }]
+        );
+    }
+
+    #[test]
+    fn bins_keep_the_cells_that_hold_observations() {
+        let s = Sample::bins(vec![0.0, 1.0, 2.0, 4.0], vec![3, 0, 2], 5).unwrap();
+        assert_eq!(s.n(), 10);
+        assert_eq!(s.rows(), 3);
+        let Layout::Bins(b) = Layout::of(&s) else { panic!("bins") };
+        assert_eq!(
+            (b.lower, b.upper, b.base),
+            (vec![0.0, 2.0, 4.0], vec![1.0, 4.0, 4.0], vec![3.0, 2.0, 5.0])
+        );
+        assert!(b.overflow);
+        assert_eq!((b.total, b.last_edge), (10.0, 4.0));
+        let other = Sample::bins(vec![0.0, 1.0, 2.0, 4.0], vec![3, 0, 2], 4).unwrap();
+        assert_ne!(s.digest(), other.digest());
     }
 }

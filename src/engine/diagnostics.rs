@@ -6,6 +6,7 @@
 
 use crate::engine::distribution::ReplicateDistribution;
 use crate::engine::interval::{Level, Method};
+use crate::engine::statistic::binned::Note;
 
 crate::wire_enum! {
     /// A stable, machine-readable warning code.
@@ -44,6 +45,10 @@ crate::wire_enum! {
         InexactNestedStudentized = "inexact_nested_studentized",
         /// A comparison has too few runs for any verdict but "inconclusive" at its level.
         TooFewRuns = "too_few_runs",
+        /// A quantile of binned data falls above the last edge (in the data, or in resamples), where it is reported as the last edge.
+        QuantileInOverflow = "quantile_in_overflow",
+        /// The mean of binned data puts each observation at its bin's midpoint.
+        GroupedMean = "grouped_mean",
     }
 }
 
@@ -272,6 +277,38 @@ fn inexact_nested(f: &Facts) -> Option<Warning> {
             "with \"exact\" the resamples are enumerated, but the studentized interval of this statistic needs a nested bootstrap of each, which is still random: its endpoints carry Monte Carlo error that is not included in lower_mc_error and upper_mc_error (shown as 0). Every other number is exact.",
         )
     })
+}
+
+/// The warning for what reading a statistic from bins assumed.
+pub fn of_note(note: Note) -> Warning {
+    match note {
+        Note::QuantileInOverflow { p, last_edge, in_data } => quantile_in_overflow(p, last_edge, in_data),
+        Note::GroupedMean => grouped_mean(),
+    }
+}
+
+/// The warning for a quantile at `p` of binned data that lies above the last edge `last_edge`
+/// (`in_data`), or that resamples can put there.
+fn quantile_in_overflow(p: f64, last_edge: f64, in_data: bool) -> Warning {
+    let where_ = if in_data {
+        "of the data lies in the overflow"
+    } else {
+        "of the data lies below the last edge, but resamples can put it in the overflow"
+    };
+    Warning::new(
+        WarningCode::QuantileInOverflow,
+        format!(
+            "the {p} quantile {where_}, above the last edge ({last_edge}) at an unknown value: there it is reported as the last edge, a lower bound, so the estimate or the upper ends of the intervals are too low. Add bins above {last_edge} up to the largest values."
+        ),
+    )
+}
+
+/// The warning for a mean read from bins at their midpoints.
+fn grouped_mean() -> Warning {
+    Warning::new(
+        WarningCode::GroupedMean,
+        "the mean of binned data counts every observation at its bin's midpoint, so it is off by as much as the observations lean to one side of their bins (at most half the widest occupied bin); the interval covers the midpoints' mean, not this grouping error. Use narrower bins, or the median or a quantile, which bins give more faithfully.",
+    )
 }
 
 /// The warning for a run that the time limit cut short after `resamples`.

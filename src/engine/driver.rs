@@ -467,6 +467,12 @@ impl Prepared {
     fn outcome(&self, reps: &Replicates, s: Summary, stop: Stop, jack: Option<JackknifeFacts>) -> Outcome {
         let job = &self.job;
         let mut warnings = diagnostics::assess(&self.facts(reps, &s, jack.is_none()));
+        // What reading the statistic from each sample assumed (binned data), once per code.
+        for w in self.target.estimators().iter().flat_map(|e| e.notes()).map(diagnostics::of_note) {
+            if !warnings.iter().any(|seen| seen.code == w.code) {
+                warnings.push(w);
+            }
+        }
         match stop {
             Stop::TimeLimit => warnings.push(diagnostics::partial_result(reps.len() as u64)),
             Stop::AutoLimit => warnings.push(diagnostics::auto_resample_limit(reps.len() as u64)),

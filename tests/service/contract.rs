@@ -682,6 +682,15 @@ fn docs_api_md_names_what_the_document_names() {
         set(&first_column(&text, "statistic")[0]),
         set(&variant_names("StatisticSpec", "name"))
     );
+    let on_bins: Vec<String> = bandsaw::engine::statistic::StatisticSpec::on_bins()
+        .into_iter()
+        .map(String::from)
+        .collect();
+    assert_eq!(
+        set(&first_column(&text, "statistic on bins")[0]),
+        set(&on_bins),
+        "the statistics on bins"
+    );
     assert_eq!(set(&first_column(&text, "method")[0]), enum_set("Method"));
     assert_eq!(set(&first_column(&text, "kind")[0]), set(&variant_names("SchemeSpec", "kind")));
     assert_eq!(set(&first_column(&text, "code")[0]), enum_set("WarningCode"));

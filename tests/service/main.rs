@@ -4,6 +4,7 @@
 //!
 //! - [`contract`]: the OpenAPI document, the parser, the catalogue and `docs/api.md` agree.
 //! - [`interval`]: `POST /v1/interval`, validation, problems, tokens, limits.
+//! - [`bins`]: binned histograms: bad input, the statistics bins refuse, warnings, comparisons.
 //! - [`compare`]: `POST /v1/compare` and a batch's comparisons: verdicts, too few runs, exact
 //!   enumeration by default, pairs, tokens, validation, Bonferroni and Holm families.
 //! - [`service`]: catalogue, batch, shedding and the pool, keys, metrics, CORS, compression.
@@ -12,6 +13,7 @@
 //!   the same report in-process and from a server.
 //! - [`golden`]: full responses of varied requests, pinned bit for bit in `tests/golden/`.
 
+mod bins;
 mod check;
 mod common;
 mod compare;

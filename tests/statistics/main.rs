@@ -6,6 +6,7 @@
 //! of every outside value are in `docs/references.md`.
 
 mod bca;
+mod bins;
 mod blocks;
 mod common;
 mod coverage;

@@ -355,7 +355,7 @@ mod tests {
     fn table(sample: Sample) -> TableLayout {
         match Layout::of(&sample) {
             Layout::Table(t) => t,
-            Layout::Column(_) => panic!("columns give a table"),
+            Layout::Column(_) | Layout::Bins(_) => panic!("columns give a table"),
         }
     }
 

@@ -3,8 +3,9 @@
 use serde::{Deserialize, Serialize};
 use utoipa::ToSchema;
 
-use super::{ColumnSpec, ColumnStatistic, Scratch};
-use crate::engine::data::{ColumnLayout, DataError};
+use super::binned::{BinStatistic, CellMean};
+use super::{jackknife_means, weighted_mean, weighted_plugin_variance, ColumnSpec, ColumnStatistic, Scratch};
+use crate::engine::data::{BinLayout, ColumnLayout, DataError};
 
 /// Arithmetic mean.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
@@ -15,6 +16,20 @@ impl ColumnSpec for MeanSpec {
     const ANALYTIC_SE: bool = true;
     fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
         Ok(Box::new(Mean))
+    }
+    const ON_BINS: bool = true;
+    /// At the bins' midpoints; refused with an overflow, whose values are unknown.
+    fn build_bins(&self, b: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
+        let overflow = || {
+            vec![DataError::OverflowMean {
+                overflow: b.base.last().map_or(0, |c| *c as u64),
+            }]
+        };
+        Some(
+            CellMean::midpoints(b)
+                .map(|m| Box::new(m) as Box<dyn BinStatistic>)
+                .ok_or_else(overflow),
+        )
     }
 }
 
@@ -116,6 +131,10 @@ impl ColumnSpec for ExceedanceSpec {
             above: values.iter().map(|v| if *v > t { 1.0 } else { 0.0 }).collect(),
         }))
     }
+    const ON_BINS: bool = true;
+    fn build_bins(&self, b: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
+        Some(Ok(Box::new(CellMean::exceedance(b, self.threshold.get()))))
+    }
 }
 
 /// The share of values above a threshold: the mean of each unit's indicator, so its resampled
@@ -142,36 +161,6 @@ fn binomial_se(indicator: &[f64], w: &[f64]) -> Option<f64> {
     let p = weighted_mean(indicator, w);
     let total: f64 = w.iter().sum();
     Some((p * (1.0 - p) / total).sqrt())
-}
-
-pub(crate) fn weighted_mean(x: &[f64], w: &[f64]) -> f64 {
-    let (mut sw, mut sx) = (0.0, 0.0);
-    for (xi, wi) in x.iter().zip(w) {
-        sw += wi;
-        sx += wi * xi;
-    }
-    sx / sw
-}
-
-/// Plug-in (divide by Σw) variance of a weighted column, two-pass.
-pub(crate) fn weighted_plugin_variance(x: &[f64], w: &[f64]) -> f64 {
-    let m = weighted_mean(x, w);
-    let (mut sw, mut ss) = (0.0, 0.0);
-    for (xi, wi) in x.iter().zip(w) {
-        let d = xi - m;
-        sw += wi;
-        ss += wi * d * d;
-    }
-    ss / sw
-}
-
-/// Leave-one-out means in O(n): removing one observation of unit j gives (S − x_j)/(N − 1).
-/// Computed on centred values so that large offsets do not cancel.
-pub(crate) fn jackknife_means(x: &[f64], base: &[f64]) -> Vec<f64> {
-    let n: f64 = base.iter().sum();
-    let m = weighted_mean(x, base);
-    let s: f64 = x.iter().zip(base).map(|(xi, wi)| wi * (xi - m)).sum();
-    x.iter().map(|xi| m + (s - (xi - m)) / (n - 1.0)).collect()
 }
 
 /// The arithmetic mean.

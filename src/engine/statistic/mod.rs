@@ -14,14 +14,18 @@
 //! - [`location`]: mean, trimmed mean, geometric mean, proportion;
 //! - [`quantile`]: median, quantile (Hyndman–Fan definition 7), interquartile range, MAD;
 //! - [`spread`]: variance, standard deviation, coefficient of variation;
-//! - [`association`]: ratio of sums, Pearson and Spearman correlation, least-squares slope.
+//! - [`association`]: ratio of sums, Pearson and Spearman correlation, least-squares slope;
+//! - [`binned`]: the statistics that a binned histogram gives (quantiles, mean, exceedance),
+//!   read under the assumptions it states.
 
 pub mod association;
+pub mod binned;
 pub mod location;
 pub mod quantile;
 pub mod spread;
 
-use crate::engine::data::{ColumnLayout, DataError, Form, Layout, Sample, TableLayout};
+use crate::engine::data::{BinLayout, ColumnLayout, DataError, Form, Layout, Sample, TableLayout};
+use binned::{BinStatistic, Note};
 
 /// A statistic of one column, evaluated on a weighted view of it.
 pub trait ColumnStatistic: Send + Sync {
@@ -82,6 +86,16 @@ pub trait ColumnSpec {
     fn reads_extremes(&self, _n: f64) -> bool {
         false
     }
+
+    /// True when the statistic can be read from binned data: then [`ColumnSpec::build_bins`]
+    /// builds it.
+    const ON_BINS: bool = false;
+
+    /// Check binned data (every problem at once) and build the statistic of it; `None` for a
+    /// statistic that bins cannot give.
+    fn build_bins(&self, _b: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
+        None
+    }
 }
 
 /// The parameters of a statistic of named columns. See [`ColumnSpec`].
@@ -140,6 +154,12 @@ macro_rules! statistics {
                 match self { $(Self::$variant(_) => Shape::$shape),+ }
             }
 
+            /// The names of the statistics that can be read from binned data, in catalogue order.
+            pub fn on_bins() -> Vec<&'static str> {
+                let on = [$(statistics!(@bins $shape, $spec)),+];
+                Self::NAMES.iter().zip(on).filter(|(_, on)| *on).map(|(name, _)| *name).collect()
+            }
+
             /// The shape and analytic-standard-error fact of the statistic called `name`.
             pub fn facts_of(name: &str) -> Option<(Shape, bool)> {
                 match name { $($wire => Some((Shape::$shape, statistics!(@analytic $shape, $spec))),)+ _ => None }
@@ -184,6 +204,8 @@ macro_rules! statistics {
     };
     (@analytic Column, $spec:ty) => { <$spec as ColumnSpec>::ANALYTIC_SE };
     (@analytic Table, $spec:ty) => { <$spec as TableSpec>::ANALYTIC_SE };
+    (@bins Column, $spec:ty) => { <$spec as ColumnSpec>::ON_BINS };
+    (@bins Table, $spec:ty) => { false };
     (@build Column, $s:ident, $sample:ident, $wire:tt) => { build_column($s, $sample, $wire) };
     (@build Table, $s:ident, $sample:ident, $wire:tt) => { build_table($s, $sample, $wire) };
 }
@@ -218,12 +240,27 @@ fn build_column(spec: &impl ColumnSpec, sample: &Sample, name: &'static str) -> 
         Form::Column(x) => x.as_slice(),
         Form::Aggregated { values, .. } => values.as_slice(),
         Form::Columns { .. } => return Err(vec![DataError::NeedsOneColumn { statistic: name }]),
+        Form::Bins { .. } => return build_bins(spec, sample, name),
     };
     let Layout::Column(data) = Layout::of(sample) else {
         return Err(vec![DataError::NeedsOneColumn { statistic: name }]);
     };
     let stat = spec.build(&data, values)?;
     Ok(Estimator::Column { data, stat })
+}
+
+fn build_bins(spec: &impl ColumnSpec, sample: &Sample, name: &'static str) -> Result<Estimator, Vec<DataError>> {
+    let Layout::Bins(data) = Layout::of(sample) else {
+        unreachable!("bins lay out as bins")
+    };
+    let refused = || {
+        vec![DataError::NotOnBins {
+            statistic: name,
+            usable: StatisticSpec::on_bins(),
+        }]
+    };
+    let stat = spec.build_bins(&data).ok_or_else(refused)??;
+    Ok(Estimator::Bins { data, stat })
 }
 
 fn build_table(spec: &impl TableSpec, sample: &Sample, name: &'static str) -> Result<Estimator, Vec<DataError>> {
@@ -265,6 +302,10 @@ pub enum Estimator {
         data: TableLayout,
         stat: Box<dyn TableStatistic>,
     },
+    Bins {
+        data: BinLayout,
+        stat: Box<dyn BinStatistic>,
+    },
 }
 
 /// What a resampler needs to know of a sample's units.
@@ -283,6 +324,7 @@ impl Estimator {
         match self {
             Estimator::Column { data, stat } => stat.evaluate(data, w, scratch),
             Estimator::Table { data, stat } => stat.evaluate(data, w, scratch),
+            Estimator::Bins { data, stat } => stat.evaluate(data, w, scratch),
         }
     }
 
@@ -290,6 +332,16 @@ impl Estimator {
         match self {
             Estimator::Column { data, stat } => stat.jackknife_closed(data),
             Estimator::Table { data, stat } => stat.jackknife_closed(data),
+            Estimator::Bins { data, stat } => stat.jackknife_closed(data),
+        }
+    }
+
+    /// True when the jackknife has a closed form, given what the statistic's spec says of its
+    /// statistic on raw or aggregated data (on bins the built statistic says).
+    pub fn closed_jackknife(&self, spec: bool) -> bool {
+        match self {
+            Estimator::Bins { stat, .. } => stat.closed_jackknife(),
+            _ => spec,
         }
     }
 
@@ -297,6 +349,15 @@ impl Estimator {
         match self {
             Estimator::Column { data, stat } => stat.analytic_se(data, w),
             Estimator::Table { data, stat } => stat.analytic_se(data, w),
+            Estimator::Bins { data, stat } => stat.analytic_se(data, w),
+        }
+    }
+
+    /// What reading the statistic from this data assumed that the caller should know.
+    pub fn notes(&self) -> Vec<Note> {
+        match self {
+            Estimator::Bins { data, stat } => stat.notes(data),
+            _ => Vec::new(),
         }
     }
 
@@ -313,6 +374,11 @@ impl Estimator {
                 total: data.rows as f64,
                 raw: true,
             },
+            Estimator::Bins { data, .. } => Units {
+                base: &data.base,
+                total: data.total,
+                raw: false,
+            },
         }
     }
 
@@ -323,11 +389,11 @@ impl Estimator {
     }
 
     /// The unit of every row in the order sent, when the units are rows (raw rows of a column,
-    /// or the rows of named columns); `None` for aggregated data, which has no rows.
+    /// or the rows of named columns); `None` for aggregated and binned data, which have no rows.
     pub fn unit_of_row(&self) -> Option<Vec<u32>> {
         match self {
             Estimator::Column { data, .. } if data.raw => Some(data.unit_of_row.clone()),
-            Estimator::Column { .. } => None,
+            Estimator::Column { .. } | Estimator::Bins { .. } => None,
             Estimator::Table { data, .. } => Some((0..data.rows as u32).collect()),
         }
     }
@@ -383,6 +449,36 @@ impl Scratch {
             pair: [Vec::new(), Vec::new()],
         }
     }
+}
+
+pub(crate) fn weighted_mean(x: &[f64], w: &[f64]) -> f64 {
+    let (mut sw, mut sx) = (0.0, 0.0);
+    for (xi, wi) in x.iter().zip(w) {
+        sw += wi;
+        sx += wi * xi;
+    }
+    sx / sw
+}
+
+/// Plug-in (divide by Σw) variance of a weighted column, two-pass.
+pub(crate) fn weighted_plugin_variance(x: &[f64], w: &[f64]) -> f64 {
+    let m = weighted_mean(x, w);
+    let (mut sw, mut ss) = (0.0, 0.0);
+    for (xi, wi) in x.iter().zip(w) {
+        let d = xi - m;
+        sw += wi;
+        ss += wi * d * d;
+    }
+    ss / sw
+}
+
+/// Leave-one-out means in O(n): removing one observation of unit j gives (S − x_j)/(N − 1).
+/// Computed on centred values so that large offsets do not cancel.
+pub(crate) fn jackknife_means(x: &[f64], base: &[f64]) -> Vec<f64> {
+    let n: f64 = base.iter().sum();
+    let m = weighted_mean(x, base);
+    let s: f64 = x.iter().zip(base).map(|(xi, wi)| wi * (xi - m)).sum();
+    x.iter().map(|xi| m + (s - (xi - m)) / (n - 1.0)).collect()
 }
 
 /// Weighted sums over two columns, centred for numerical stability: returns
@@ -465,6 +561,28 @@ pub(crate) mod tests {
             assert_eq!(est.analytic_se(&base).is_some(), spec.has_analytic_se(), "{spec:?}");
             assert_eq!(est.jackknife_closed().is_some(), spec.has_closed_jackknife(), "{spec:?}");
             assert_eq!(StatisticSpec::facts_of(spec.name()), Some((spec.shape(), spec.has_analytic_se())));
+        }
+    }
+
+    /// Exactly the statistics listed as on bins build on bins, and their facts hold there.
+    #[test]
+    fn the_statistics_on_bins_are_those_that_build_on_bins() {
+        let bins = Sample::bins(vec![0.0, 1.0, 2.0, 4.0], vec![3, 1, 2], 0).unwrap();
+        for spec in every_statistic() {
+            let on = StatisticSpec::on_bins().contains(&spec.name());
+            match spec.build(&bins) {
+                Ok(est) => {
+                    assert!(on && matches!(est, Estimator::Bins { .. }), "{spec:?}");
+                    let base = est.units().base.to_vec();
+                    assert_eq!(est.analytic_se(&base).is_some(), spec.has_analytic_se(), "{spec:?}");
+                    let closed = est.closed_jackknife(spec.has_closed_jackknife());
+                    assert_eq!(est.jackknife_closed().is_some(), closed, "{spec:?}");
+                }
+                Err(e) => assert!(
+                    !on && matches!(e[0], DataError::NotOnBins { .. } | DataError::NeedsColumns { .. }),
+                    "{spec:?}"
+                ),
+            }
         }
     }
 

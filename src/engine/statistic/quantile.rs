@@ -10,8 +10,9 @@
 use serde::{Deserialize, Serialize};
 use utoipa::ToSchema;
 
+use super::binned::{BinIqr, BinQuantile, BinStatistic};
 use super::{ColumnSpec, ColumnStatistic, Scratch};
-use crate::engine::data::{ColumnLayout, DataError};
+use crate::engine::data::{BinLayout, ColumnLayout, DataError};
 
 /// A tail holding fewer observations than this makes a quantile a statistic of the extremes,
 /// whose bootstrap distribution cannot see past the most extreme observations (common practice).
@@ -31,6 +32,10 @@ impl ColumnSpec for MedianSpec {
     fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
         Ok(Box::new(Quantile { p: 0.5 }))
     }
+    const ON_BINS: bool = true;
+    fn build_bins(&self, _: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
+        Some(Ok(Box::new(BinQuantile { p: 0.5 })))
+    }
 }
 
 /// Sample quantile, Hyndman–Fan definition 7 (numpy's linear).
@@ -44,6 +49,10 @@ pub struct QuantileSpec {
 impl ColumnSpec for QuantileSpec {
     fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
         Ok(Box::new(Quantile { p: self.p.get() }))
+    }
+    const ON_BINS: bool = true;
+    fn build_bins(&self, _: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
+        Some(Ok(Box::new(BinQuantile { p: self.p.get() })))
     }
     /// A quantile whose smaller tail holds fewer than [`EXTREME_TAIL`] observations.
     fn reads_extremes(&self, n: f64) -> bool {
@@ -60,6 +69,10 @@ pub struct IqrSpec {}
 impl ColumnSpec for IqrSpec {
     fn build(&self, _: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
         Ok(Box::new(Iqr))
+    }
+    const ON_BINS: bool = true;
+    fn build_bins(&self, _: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
+        Some(Ok(Box::new(BinIqr)))
     }
     fn relative_cost(&self) -> f64 {
         2.0

@@ -4,8 +4,7 @@
 use serde::{Deserialize, Serialize};
 use utoipa::ToSchema;
 
-use super::location::{weighted_mean, weighted_plugin_variance};
-use super::{ColumnSpec, ColumnStatistic, Scratch};
+use super::{weighted_mean, weighted_plugin_variance, ColumnSpec, ColumnStatistic, Scratch};
 use crate::engine::data::{ColumnLayout, DataError};
 
 crate::wire_enum! {
