@@ -202,13 +202,13 @@ pub fn check_params(p: &Params, limits: &Limits) -> Vec<(String, Rule, String)> 
             ));
         }
     }
-    if !p.scheme.independent() {
+    if p.scheme.block().is_some() {
         if let Some(i) = p.methods.0.iter().position(|m| *m == Method::Studentized) {
             out.push((
                 format!("/methods/{i}"),
-                Rule::StudentizedNeedsIid,
+                Rule::StudentizedNotByBlocks,
                 format!(
-                    "the studentized interval needs a standard error of each resample that follows the {} scheme, which it does not have; use percentile, bca, basic or normal",
+                    "the studentized interval needs a standard error of each resample drawn by the {} scheme too, and a resample of blocks has no time order left to draw blocks from; use percentile, bca, basic or normal",
                     p.scheme.name()
                 ),
             ));

@@ -18,8 +18,8 @@ crate::wire_enum! {
         SchemeNeedsRows = "scheme_needs_rows",
         /// A block length is a whole number of rows (a mean block length any number) from 1 up to the series' length.
         BlockLength = "block_length",
-        /// The studentized interval under `iid` or `bayesian` only: a resample's own standard error would have to follow the scheme's blocks, strata or clusters too.
-        StudentizedNeedsIid = "studentized_needs_iid",
+        /// No studentized interval under a block scheme: a resample of blocks has no time order left to resample by blocks again for its own standard error.
+        StudentizedNotByBlocks = "studentized_not_by_blocks",
         /// Labels of a stratified or cluster scheme: one per row; every stratum two rows or more; two clusters or more.
         SchemeLabels = "scheme_labels",
         /// A number of resamples at most the server's `limits.max_resamples`.

@@ -327,8 +327,12 @@ impl Prepared {
         enumerated(&self.target, u64::MAX).ok().flatten()
     }
 
-    /// The analytic standard error of the estimate, where the statistic has one.
+    /// The analytic standard error of the estimate, where the statistic has one and the scheme
+    /// draws rows independently, as it assumes.
     fn analytic_se(&self) -> Option<f64> {
+        if !self.job.independent_rows() {
+            return None;
+        }
         let se = |a: &Arm| a.estimator.analytic_se(a.estimator.units().base);
         match &self.target {
             Target::One(a) => se(a),

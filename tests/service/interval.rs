@@ -694,7 +694,7 @@ async fn block_schemes_refuse_what_does_not_fit_them() {
         .await,
         &["/methods/1"],
     );
-    refused(&v, "/methods/1", "studentized_needs_iid");
+    refused(&v, "/methods/1", "studentized_not_by_blocks");
     let v = invalid(
         post(
             &app,
@@ -782,15 +782,13 @@ async fn bad_labels_are_refused_at_their_field_with_a_way_out() {
         &["/scheme"],
     );
     refused(&v, "/scheme", "scheme_needs_rows");
-    let v = invalid(
-        post(
-            &app,
-            json!({"data": data, "scheme": {"kind": "cluster", "clusters": [1, 1, 2, 2, 3, 3]}, "methods": ["studentized"]}),
-        )
-        .await,
-        &["/methods/0"],
-    );
-    refused(&v, "/methods/0", "studentized_needs_iid");
+    // The studentized interval under labels: its inner resamples by the same scheme.
+    let v = ok(post(
+        &app,
+        json!({"data": data, "scheme": {"kind": "cluster", "clusters": [1, 1, 2, 2, 3, 3]}, "methods": ["studentized"], "seed": 2, "resamples": 300}),
+    )
+    .await);
+    assert_eq!(v["diagnostics"]["studentized_standard_error"], "nested", "{v}");
 }
 
 #[tokio::test]

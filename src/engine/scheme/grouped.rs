@@ -6,6 +6,9 @@
 //! - cluster: whole clusters drawn with replacement, every row of a drawn cluster with it
 //!   (Davison & Hinkley 1997, §3.8), for rows that are not independent within a cluster
 //!   (sessions of one user, orders of one customer).
+//!
+//! The nested resamples of the studentized interval are drawn by the same scheme from within
+//! each outer resample: rows within its strata, or clusters from its clusters.
 
 use std::collections::HashMap;
 
@@ -14,7 +17,7 @@ use rand_chacha::ChaCha8Rng;
 use serde::{Deserialize, Serialize};
 use utoipa::ToSchema;
 
-use super::{iid, Resampler, SchemeError, Within};
+use super::{Resampler, SchemeError, Within};
 
 /// A row's stratum or cluster: a string or an integer.
 #[derive(Debug, Clone, PartialEq, Eq, Hash, Serialize, Deserialize, ToSchema)]
@@ -100,14 +103,33 @@ impl Resampler for Stratified {
         None
     }
 
-    // The studentized interval is refused under labelled schemes (the API's rule), so no
-    // nested resample is drawn by strata; these keep the trait whole with the iid draw.
+    /// The outer resample's rows written out stratum by stratum (each keeps its size).
     fn prepare_within(&self, outer: &[f64], within: &mut Within) {
-        iid::prepare_within(self.total, outer, within);
+        within.rows.clear();
+        within.bounds.clear();
+        within.expanded = true;
+        within.total = self.total;
+        for stratum in &self.strata {
+            for unit in stratum {
+                for _ in 0..outer[*unit as usize] as u64 {
+                    within.rows.push(*unit);
+                }
+            }
+            within.bounds.push(within.rows.len());
+        }
     }
 
-    fn draw_within(&self, outer: &[f64], within: &Within, rng: &mut ChaCha8Rng, w: &mut [f64]) {
-        iid::draw_within(self.total, outer, within, rng, w);
+    /// A stratified resample of the outer resample: each stratum's rows drawn from its own.
+    fn draw_within(&self, _: &[f64], within: &Within, rng: &mut ChaCha8Rng, w: &mut [f64]) {
+        w.fill(0.0);
+        let mut start = 0;
+        for &end in &within.bounds {
+            let rows = &within.rows[start..end];
+            for _ in 0..rows.len() {
+                w[rows[rng.random_range(0..rows.len())] as usize] += 1.0;
+            }
+            start = end;
+        }
     }
 }
 
@@ -153,12 +175,29 @@ impl Resampler for Cluster {
         None
     }
 
+    /// The outer resample's clusters written out: cluster j as often as it was drawn (every
+    /// row of a drawn cluster carries the cluster's count). `rows` holds cluster indices here.
     fn prepare_within(&self, outer: &[f64], within: &mut Within) {
-        iid::prepare_within(self.total, outer, within);
+        within.rows.clear();
+        within.bounds.clear();
+        within.expanded = true;
+        within.total = self.total;
+        for (j, cluster) in self.clusters.iter().enumerate() {
+            for _ in 0..outer[cluster[0] as usize] as u64 {
+                within.rows.push(j as u32);
+            }
+        }
     }
 
-    fn draw_within(&self, outer: &[f64], within: &Within, rng: &mut ChaCha8Rng, w: &mut [f64]) {
-        iid::draw_within(self.total, outer, within, rng, w);
+    /// A cluster resample of the outer resample: as many clusters, drawn from its clusters.
+    fn draw_within(&self, _: &[f64], within: &Within, rng: &mut ChaCha8Rng, w: &mut [f64]) {
+        w.fill(0.0);
+        let drawn = &within.rows;
+        for _ in 0..drawn.len() {
+            for unit in &self.clusters[drawn[rng.random_range(0..drawn.len())] as usize] {
+                w[*unit as usize] += 1.0;
+            }
+        }
     }
 
     /// Rows of one cluster are not independent of each other; the clusters are.

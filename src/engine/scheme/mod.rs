@@ -73,6 +73,8 @@ pub struct Within {
     pub expanded: bool,
     /// The outer resample's total weight.
     pub total: f64,
+    /// For a labelled scheme: where each stratum's (or the clusters') part of `rows` ends.
+    pub bounds: Vec<usize>,
 }
 
 /// How a resample is drawn.
@@ -133,7 +135,9 @@ pub enum SchemeError {
     NotEnumerable { scheme: &'static str },
     #[error("enumerating would visit {} distinct resamples, above the limit of {limit}", count.map_or("more than 1.8e19".to_string(), |c| c.to_string()))]
     TooManyToEnumerate { count: Option<u64>, limit: u64 },
-    #[error("the {scheme} scheme reads each row in the order observed, so it needs rows (an array or columns), not aggregated or binned data")]
+    #[error(
+        "the {scheme} scheme reads each row in the order observed, so it needs rows (an array or columns), not aggregated or binned data"
+    )]
     NeedsRows { scheme: &'static str },
     #[error("a block of {length} rows is longer than the series of {rows} rows")]
     BlockTooLong { length: f64, rows: usize },
