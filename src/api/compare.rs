@@ -155,7 +155,7 @@ pub fn prepare(
     let r = &req.resampling;
     let mut params = r.params();
     // The analytic standard error assumes independent rows: iid or bayesian only.
-    if !raw.contains_key("methods") && params.statistic.has_analytic_se() && !req.paired && params.scheme.independent() {
+    if !raw.contains_key("methods") && params.statistic.has_analytic_se() && !req.paired && params.scheme.analytic_se_applies() {
         params.methods = Methods(COMPARISON_METHODS.to_vec());
     }
     // Unless told otherwise, enumerate where that is cheap; else draw the default number.

@@ -176,7 +176,7 @@ fn labels_ok(v: Option<&Value>, at: &str, errs: &mut Errors) -> bool {
     };
     let before = errs.len();
     for (i, item) in items.iter().enumerate() {
-        if !(item.is_string() || item.is_i64()) {
+        if !(item.is_string() || item.is_i64() || item.is_u64()) {
             errs.push(
                 format!("{at}/{i}"),
                 format!("a label is a string or an integer; got {}", describe(item)),

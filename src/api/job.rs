@@ -202,7 +202,7 @@ fn refusal(e: RunError, time_limit_ms: u64, places: &[(&str, DataForm)]) -> Prob
         RunError::Scheme(e @ (SchemeError::BlockTooLong { .. } | SchemeError::BlockNotWhole { .. })) => invalid(
             "/scheme",
             Rule::BlockLength,
-            format!("{e}: give a whole number of rows up to the series' length, or \"auto\""),
+            format!("{e}: give a block length of whole rows (a mean block length of any number of rows) from 1 up to half the series, or \"auto\""),
         ),
         RunError::Scheme(e @ SchemeError::Labels { field, .. }) => invalid(&format!("/scheme/{field}"), Rule::SchemeLabels, format!("{e}")),
         RunError::Scheme(e) => invalid("/resamples", Rule::ExactNeedsIid, format!("\"exact\": {e}; give a number of resamples")),

@@ -44,7 +44,9 @@ fn jackknife_work(job: &Job, target: &Target) -> f64 {
         .resamplers()
         .iter()
         .filter_map(|r| {
-            let clusters = r.groups().map(|c| c.len() as f64 * c.iter().map(Vec::len).sum::<usize>() as f64);
+            let clusters = r
+                .groups()
+                .map(|c| c.len().min(jackknife::GROUPS) as f64 * c.iter().map(Vec::len).sum::<usize>() as f64);
             clusters.or_else(|| r.blocks().map(|(order, block)| jackknife::block_cost_in_units(order.len(), block)))
         })
         .collect();

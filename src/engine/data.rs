@@ -84,6 +84,8 @@ pub enum DataError {
     },
     #[error("{overflow} observation(s) lie above the last edge at unknown values, so the mean of these bins is undefined; add a bin up to a bound on the largest value, or use the median, a quantile or the exceedance of a threshold")]
     OverflowMean { overflow: u64 },
+    #[error("{overflow} observation(s) lie above the last edge ({last_edge}) at unknown values, so the share above a threshold of {threshold} is unknown (anywhere from 0 to the overflow's share); add an edge at the threshold, or choose a threshold at or below the last edge")]
+    OverflowExceedance { overflow: u64, threshold: f64, last_edge: f64 },
     #[error("needs at least one column")]
     NoColumns,
     #[error("the statistic {statistic} reads named columns, and this sample is one column")]
@@ -139,7 +141,7 @@ impl DataError {
             DataError::BinCounts { .. } | DataError::TooFewBinned { .. } => Place::Counts,
             DataError::TooFewEdges { .. } => Place::Edges,
             DataError::NotOnBins { .. } => Place::Statistic,
-            DataError::OverflowMean { .. } => Place::Overflow,
+            DataError::OverflowMean { .. } | DataError::OverflowExceedance { .. } => Place::Overflow,
             _ => Place::Whole,
         }
     }

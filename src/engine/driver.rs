@@ -330,7 +330,7 @@ impl Prepared {
     /// The analytic standard error of the estimate, where the statistic has one and the scheme
     /// draws rows independently, as it assumes.
     fn analytic_se(&self) -> Option<f64> {
-        if !self.job.independent_rows() {
+        if !self.job.analytic_se_applies() {
             return None;
         }
         let se = |a: &Arm| a.estimator.analytic_se(a.estimator.units().base);

@@ -120,12 +120,23 @@ pub fn of_part(est: &dyn Weighted, resampler: &dyn Resampler, stop: &(dyn Fn() -
 }
 
 /// Leave out one cluster in turn (the units of each in `clusters`), each counting once: the
-/// jackknife of the cluster scheme's unit of independence. `Ok(None)` with fewer than 3.
+/// jackknife of the cluster scheme's unit of independence. Beyond [`GROUPS`] clusters, whole
+/// clusters are dealt into [`GROUPS`] groups by a fixed permutation and a group left out at a
+/// time, as [`grouped`] does with rows. `Ok(None)` with fewer than 3 clusters.
 pub fn by_clusters(est: &dyn Weighted, clusters: &[Vec<u32>], stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
     if clusters.len() < 3 {
         return Ok(None);
     }
-    let members: Vec<Vec<usize>> = clusters.iter().map(|c| c.iter().map(|u| *u as usize).collect()).collect();
+    let mut order: Vec<usize> = (0..clusters.len()).collect();
+    if clusters.len() > GROUPS {
+        order.shuffle(&mut ChaCha8Rng::seed_from_u64(GROUP_SEED));
+    }
+    let count = clusters.len().min(GROUPS);
+    let mut members: Vec<Vec<usize>> = vec![Vec::new(); count];
+    for (k, c) in order.iter().enumerate() {
+        members[k % count].extend(clusters[*c].iter().map(|u| *u as usize));
+    }
+    let clusters = &members;
     let values = leave_groups_out(est, est.units().base.to_vec(), &members, stop)?;
     Ok(Some(Jackknife {
         values,
@@ -141,7 +152,12 @@ pub fn by_clusters(est: &dyn Weighted, clusters: &[Vec<u32>], stop: &(dyn Fn() -
 /// than 3 blocks.
 pub fn by_blocks(est: &dyn Weighted, order: &[u32], block: usize, stop: &(dyn Fn() -> bool + Sync)) -> Result<Option<Jackknife>, Stopped> {
     let size = block.max(order.len().div_ceil(GROUPS)).max(1);
-    let members: Vec<Vec<usize>> = order.chunks(size).map(|c| c.iter().map(|u| *u as usize).collect()).collect();
+    let mut members: Vec<Vec<usize>> = order.chunks(size).map(|c| c.iter().map(|u| *u as usize).collect()).collect();
+    // A short last block joins the one before it, so that every block left out is whole.
+    if members.len() > 1 && members.last().is_some_and(|m| m.len() < size) {
+        let last = members.pop().expect("a last block");
+        members.last_mut().expect("a block before it").extend(last);
+    }
     if members.len() < 3 {
         return Ok(None);
     }

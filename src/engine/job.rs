@@ -159,13 +159,13 @@ impl Job {
     /// here knows) are compared.
     pub fn nested_studentized(&self) -> bool {
         let paired = matches!(self.samples, Samples::Two { paired: true, .. });
-        self.wants(Method::Studentized) && (paired || !self.statistic.has_analytic_se() || !self.independent_rows())
+        self.wants(Method::Studentized) && (paired || !self.statistic.has_analytic_se() || !self.analytic_se_applies())
     }
 
     /// True when every sample's scheme draws rows independently (`iid`, `bayesian`): only then
     /// do the statistics' analytic standard errors, which assume it, apply.
-    pub fn independent_rows(&self) -> bool {
-        self.samples.all().iter().all(|s| s.scheme.independent())
+    pub fn analytic_se_applies(&self) -> bool {
+        self.samples.all().iter().all(|s| s.scheme.analytic_se_applies())
     }
 
     /// True when the job asks for this part of the result.

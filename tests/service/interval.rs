@@ -660,7 +660,7 @@ async fn block_schemes_refuse_what_does_not_fit_them() {
         &["/scheme"],
     );
     refused(&v, "/scheme", "block_length");
-    assert!(message_at(&v, "/scheme").contains("longer than the series of 6 rows"), "{v}");
+    assert!(message_at(&v, "/scheme").contains("longer than half the series of 6 rows"), "{v}");
     let v = invalid(
         post(
             &app,

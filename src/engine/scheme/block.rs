@@ -220,12 +220,18 @@ pub fn automatic_length(x: &[f64], kind: BlockKind) -> f64 {
     } else {
         1.0
     };
-    let cap = (3.0 * nf.sqrt()).min(nf / 3.0).max(1.0);
+    let cap = length_cap(n);
     let b = if b.is_finite() { b.clamp(1.0, cap) } else { 1.0 };
     match kind {
         BlockKind::Stationary => b,
         BlockKind::Moving | BlockKind::Circular => b.round().max(1.0),
     }
+}
+
+/// The longest automatic length for a series of `n` rows: min(3√n, n/3), and at least 1.
+pub fn length_cap(n: usize) -> f64 {
+    let nf = n as f64;
+    (3.0 * nf.sqrt()).min(nf / 3.0).max(1.0)
 }
 
 /// K_n: how many autocorrelations in a row must be insignificant.

@@ -15,17 +15,33 @@ use std::collections::HashMap;
 use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 use serde::{Deserialize, Serialize};
-use utoipa::ToSchema;
+use utoipa::openapi::schema::{ObjectBuilder, Schema, SchemaType, Type};
+use utoipa::openapi::RefOr;
+use utoipa::{PartialSchema, ToSchema};
 
 use super::{Resampler, SchemeError, Within};
 
 /// A row's stratum or cluster: a string or an integer.
-#[derive(Debug, Clone, PartialEq, Eq, Hash, Serialize, Deserialize, ToSchema)]
+#[derive(Debug, Clone, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[serde(untagged)]
 pub enum Label {
     Integer(i64),
+    /// An integer above i64's range (identifiers often are unsigned 64-bit).
+    Unsigned(u64),
     Text(String),
 }
+
+impl PartialSchema for Label {
+    /// One schema for both forms (the integer variants overlap, which `oneOf` forbids).
+    fn schema() -> RefOr<Schema> {
+        ObjectBuilder::new()
+            .schema_type(SchemaType::from_iter([Type::Integer, Type::String]))
+            .description(Some("A row's stratum or cluster: a string or an integer."))
+            .into()
+    }
+}
+
+impl ToSchema for Label {}
 
 /// The groups of rows by label, in order of first appearance: the units of each group's rows.
 fn groups(labels: &[Label], order: &[u32]) -> Vec<Vec<u32>> {

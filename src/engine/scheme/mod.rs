@@ -139,7 +139,7 @@ pub enum SchemeError {
         "the {scheme} scheme reads each row in the order observed, so it needs rows (an array or columns), not aggregated or binned data"
     )]
     NeedsRows { scheme: &'static str },
-    #[error("a block of {length} rows is longer than the series of {rows} rows")]
+    #[error("a block of {length} rows is longer than half the series of {rows} rows, so a resample would hold fewer than two blocks")]
     BlockTooLong { length: f64, rows: usize },
     #[error("a block length of {length} rows is not a whole number")]
     BlockNotWhole { length: f64 },
@@ -174,9 +174,9 @@ impl SchemeSpec {
         }
     }
 
-    /// True for the schemes whose rows are drawn independently (`iid`, `bayesian`): those an
-    /// analytic or nested standard error of a resample fits.
-    pub fn independent(&self) -> bool {
+    /// True for `iid` and `bayesian`, which draw each row on its own: only under them do the
+    /// statistics' analytic standard errors (which assume it) apply.
+    pub fn analytic_se_applies(&self) -> bool {
         matches!(self, SchemeSpec::Iid {} | SchemeSpec::Bayesian {})
     }
 
@@ -196,7 +196,14 @@ impl SchemeSpec {
         let Some((kind, BlockLength::Auto)) = self.block() else {
             return self.clone();
         };
-        let length = series.iter().map(|x| block::automatic_length(x, kind)).fold(1.0, f64::max);
+        // The longest any series calls for, but within the cap of the shortest, so that every
+        // sample of a comparison can be resampled by it.
+        let wanted = series.iter().map(|x| block::automatic_length(x, kind)).fold(1.0, f64::max);
+        let cap = series.iter().map(|x| block::length_cap(x.len())).fold(f64::INFINITY, f64::min);
+        let length = match kind {
+            BlockKind::Stationary => wanted.min(cap),
+            BlockKind::Moving | BlockKind::Circular => wanted.min(cap.floor()).max(1.0),
+        };
         let l = BlockLength::Rows(length);
         match kind {
             BlockKind::Moving => SchemeSpec::MovingBlock { block_length: l },
@@ -225,7 +232,8 @@ impl SchemeSpec {
         if kind != BlockKind::Stationary && length.fract() != 0.0 {
             return Err(SchemeError::BlockNotWhole { length });
         }
-        if length > rows as f64 {
+        // At most half the series: a resample strings together two blocks or more.
+        if length > (rows as f64 / 2.0).max(1.0) {
             return Err(SchemeError::BlockTooLong { length, rows });
         }
         Ok(Box::new(block::Blocks::new(kind, length, order)))

@@ -132,8 +132,18 @@ impl ColumnSpec for ExceedanceSpec {
         }))
     }
     const ON_BINS: bool = true;
+    /// Above the last edge, the overflow's values are unknown, so its share there is too.
     fn build_bins(&self, b: &BinLayout) -> Option<Result<Box<dyn BinStatistic>, Vec<DataError>>> {
-        Some(Ok(Box::new(CellMean::exceedance(b, self.threshold.get()))))
+        let (t, last_edge) = (self.threshold.get(), b.upper[b.bins() - 1]);
+        let overflow = b.base.get(b.bins()).copied().unwrap_or(0.0) as u64;
+        if b.overflow && t > last_edge {
+            return Some(Err(vec![DataError::OverflowExceedance {
+                overflow,
+                threshold: t,
+                last_edge,
+            }]));
+        }
+        Some(Ok(Box::new(CellMean::exceedance(b, t))))
     }
 }
 
