@@ -126,6 +126,18 @@ async fn bins_give_quantiles_means_and_exceedances_with_their_warnings() {
     // Share slower than 300 ms: 80 % of (250, 500] is above it, so (0.8 · 70 + 25 + 15)/1000.
     let v = ok(interval(&app, run(checkout(), json!({"name": "exceedance", "threshold": 300}))).await);
     assert!((v["estimate"].as_f64().unwrap() - 0.096).abs() < 1e-12, "{v}");
+    // Above the last edge the overflow's values are unknown, so is the share above 2000 ms:
+    // refused at the overflow, with a way out. At the last edge, the overflow is all above.
+    let v = invalid(
+        interval(&app, run(checkout(), json!({"name": "exceedance", "threshold": 2000}))).await,
+        &["/data/bins/overflow"],
+    );
+    assert!(
+        message_at(&v, "/data/bins/overflow").contains("add an edge at the threshold"),
+        "{v}"
+    );
+    let v = ok(interval(&app, run(checkout(), json!({"name": "exceedance", "threshold": 1000}))).await);
+    assert!((v["estimate"].as_f64().unwrap() - 0.015).abs() < 1e-12, "{v}");
     // The mean without an overflow, at the midpoints, with the grouping warning.
     let no_overflow = json!({"edges": [0, 50, 100], "counts": [30, 10]});
     let v = ok(interval(&app, run(no_overflow, json!("mean"))).await);
