@@ -339,6 +339,22 @@ async fn statistic_errors_point_at_the_name_or_parameter() {
         post(&app, json!({"data": data, "statistic": {"name": "trimmed_mean", "trim": "a"}})).await,
         &["/statistic/trim"],
     );
+    // An exceedance needs its threshold, a number.
+    for threshold in [json!("300ms"), json!(null), json!([300])] {
+        let v = invalid(
+            post(
+                &app,
+                json!({"data": data, "statistic": {"name": "exceedance", "threshold": threshold}}),
+            )
+            .await,
+            &["/statistic/threshold"],
+        );
+        assert!(message_at(&v, "/statistic/threshold").contains("number"), "{v}");
+    }
+    invalid(
+        post(&app, json!({"data": data, "statistic": {"name": "exceedance"}})).await,
+        &["/statistic/threshold"],
+    );
     invalid(
         post(
             &app,
