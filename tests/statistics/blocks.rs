@@ -195,8 +195,8 @@ fn iid_understates_the_long_run_standard_error_and_warns() {
 
 #[test]
 fn the_stationary_percentile_interval_of_an_ar1_mean_covers_near_its_level() {
-    // 200 series of 2000 rows at φ = 0.6; the true mean is 0.
-    const TRIALS: u64 = 200;
+    // 400 series of 2000 rows at φ = 0.6; the true mean is 0.
+    const TRIALS: u64 = 400;
     let covered = (0..TRIALS)
         .into_par_iter()
         .filter(|&s| {
@@ -211,7 +211,7 @@ fn the_stationary_percentile_interval_of_an_ar1_mean_covers_near_its_level() {
         })
         .count();
     let rate = covered as f64 / TRIALS as f64;
-    // Binomial se at 0.9 over 200 trials: √(0.9·0.1/200) = 0.021; 4 of them 0.085. Block
+    // Binomial se at 0.9 over 400 trials: √(0.9·0.1/400) = 0.015; 4 of them 0.06. Block
     // intervals run a little short at this length (the shortfall above), inside that.
     let tolerance = 4.0 * (0.9_f64 * 0.1 / TRIALS as f64).sqrt();
     eprintln!("AR(1) φ = 0.6, n = 2000, stationary blocks: 90 % percentile coverage {rate:.3} of {TRIALS}");
