@@ -363,6 +363,7 @@ impl Prepared {
                 seed: self.job.seed,
                 studentized: self.job.wants(Method::Studentized),
                 inner: self.job.inner_resamples.get() as usize,
+                analytic: self.job.analytic_se_applies(),
             },
             acceleration: jack.as_ref().map(|j| j.acceleration),
         };

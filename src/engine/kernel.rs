@@ -150,6 +150,9 @@ pub struct Kernel<'a> {
     pub studentized: bool,
     /// Inner resamples of the nested bootstrap.
     pub inner: usize,
+    /// True when the statistics' analytic standard errors apply (the scheme draws rows
+    /// independently); else every standard error comes from the nested bootstrap.
+    pub analytic: bool,
 }
 
 impl Kernel<'_> {
@@ -240,7 +243,7 @@ impl Kernel<'_> {
         wk: &mut Worker,
         stop: &dyn Fn() -> bool,
     ) -> Option<f64> {
-        if let Some(se) = part.analytic_se(&wk.w[k]) {
+        if let Some(se) = self.analytic.then(|| part.analytic_se(&wk.w[k])).flatten() {
             return Some(se);
         }
         let units = part.units().base.len();

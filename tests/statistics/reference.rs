@@ -211,6 +211,58 @@ fn stratified_and_cluster_means_have_their_textbook_bootstrap_variances() {
 }
 
 #[test]
+fn the_nested_standard_error_under_strata_resamples_within_the_strata() {
+    use bandsaw::engine::job::Include;
+    use bandsaw::engine::scheme::Label;
+    // The studentized interval's standard error of each resample comes from resampling it
+    // again within its strata. For the mean, the inner variance (divisor k − 1, unbiased) has
+    // expectation Σ (n_h/n)² σ̂*_h²/n_h on an outer resample, and an outer stratified resample
+    // has E σ̂*_h² = (n_h − 1)/n_h · σ̂_h² (plug-in variances), so the mean of the squared nested
+    // standard errors over the outer resamples estimates Σ (n_h/n)² (n_h − 1)/n_h · σ̂_h²/n_h
+    // exactly (Davison & Hinkley 1997, §3.7; the identities of the plug-in variance). Resampled
+    // as iid instead, it would estimate the larger unstratified variance.
+    let regions: [&[f64]; 2] = [
+        &[3.0, 5.0, 4.0, 6.0, 2.0, 5.0, 4.0, 3.0],
+        &[17.0, 19.0, 16.0, 18.0, 20.0, 17.0, 19.0, 18.0, 21.0, 16.0],
+    ];
+    let x: Vec<f64> = regions.iter().flat_map(|r| r.iter().copied()).collect();
+    let strata: Vec<Label> = regions
+        .iter()
+        .enumerate()
+        .flat_map(|(h, r)| r.iter().map(move |_| Label::Integer(h as i64)))
+        .collect();
+    let n = x.len() as f64;
+    let want: f64 = regions
+        .iter()
+        .map(|r| {
+            let nh = r.len() as f64;
+            (nh / n).powi(2) * (nh - 1.0) / nh * plugin_var(r) / nh
+        })
+        .sum();
+    let mut j = job(column(x), stat("mean"), 4000, 31);
+    j.methods = vec![Method::Studentized];
+    j.include = vec![Include::Replicates];
+    set_scheme(&mut j, SchemeSpec::Stratified { strata });
+    let o = run(&j);
+    let squares: Vec<f64> = o
+        .extras
+        .replicate_standard_errors
+        .expect("nested standard errors")
+        .iter()
+        .map(|s| s * s)
+        .collect();
+    let b = squares.len() as f64;
+    let mean = squares.iter().sum::<f64>() / b;
+    let sd = (squares.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (b - 1.0)).sqrt();
+    // The mean of B independent squared standard errors: its standard error is sd/√B; 4 of them.
+    let tol = 4.0 * sd / b.sqrt();
+    assert!((mean - want).abs() < tol, "mean nested variance {mean} vs {want} ± {tol}");
+    // The unstratified variance of these data is many times larger: the check can tell.
+    let all: Vec<f64> = regions.iter().flat_map(|r| r.iter().copied()).collect();
+    assert!(plugin_var(&all) / n > 10.0 * want);
+}
+
+#[test]
 fn bayesian_bootstrap_variance_of_the_mean_is_sigma_squared_over_n_plus_1() {
     // Rubin (1981): under Dirichlet(1,…,1) weights the posterior variance of the mean is
     // σ̂²/(n + 1) (plug-in σ̂²).
