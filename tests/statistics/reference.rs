@@ -210,6 +210,73 @@ fn stratified_and_cluster_means_have_their_textbook_bootstrap_variances() {
     );
 }
 
+/// Every way to draw `c` clusters from `c` with replacement, as counts, with its multinomial
+/// probability c!/(Π k_i!)·c^−c.
+fn cluster_draws(c: usize) -> Vec<(Vec<usize>, f64)> {
+    fn fill(left: usize, slots: usize, prefix: &mut Vec<usize>, out: &mut Vec<Vec<usize>>) {
+        if slots == 1 {
+            prefix.push(left);
+            out.push(prefix.clone());
+            prefix.pop();
+            return;
+        }
+        for k in 0..=left {
+            prefix.push(k);
+            fill(left - k, slots - 1, prefix, out);
+            prefix.pop();
+        }
+    }
+    let mut all = Vec::new();
+    fill(c, c, &mut Vec::new(), &mut all);
+    let fact = |k: usize| (1..=k).map(|i| i as f64).product::<f64>();
+    all.into_iter()
+        .map(|k| {
+            let p = fact(c) / k.iter().map(|&x| fact(x)).product::<f64>() / (c as f64).powi(c as i32);
+            (k, p)
+        })
+        .collect()
+}
+
+#[test]
+fn clusters_of_unequal_sizes_resample_as_whole_clusters() {
+    use bandsaw::engine::scheme::Label;
+    // Invented: items per order of 4 customers with 1, 2, 3 and 5 orders. Drawing whole
+    // customers, the resampled mean is Σ k_c·S_c / Σ k_c·m_c (cluster sums S_c, sizes m_c,
+    // counts k_c), a ratio whose ideal bootstrap variance is computed here exactly over the 35
+    // ways to draw 4 customers (no closed form; this is the definition).
+    let customers: [&[f64]; 4] = [&[9.0], &[2.0, 3.0], &[5.0, 6.0, 4.0], &[1.0, 2.0, 1.0, 3.0, 2.0]];
+    let (sums, sizes): (Vec<f64>, Vec<f64>) = customers.iter().map(|c| (c.iter().sum::<f64>(), c.len() as f64)).unzip();
+    let draws = cluster_draws(4);
+    assert_eq!(draws.len(), 35);
+    let value = |k: &[usize]| {
+        let (s, m) = k
+            .iter()
+            .enumerate()
+            .fold((0.0, 0.0), |(s, m), (c, &kc)| (s + kc as f64 * sums[c], m + kc as f64 * sizes[c]));
+        s / m
+    };
+    let mean: f64 = draws.iter().map(|(k, p)| p * value(k)).sum();
+    let want = draws.iter().map(|(k, p)| p * (value(k) - mean).powi(2)).sum::<f64>().sqrt();
+    let x: Vec<f64> = customers.iter().flat_map(|c| c.iter().copied()).collect();
+    let clusters: Vec<Label> = customers
+        .iter()
+        .enumerate()
+        .flat_map(|(i, c)| c.iter().map(move |_| Label::Integer(i as i64)))
+        .collect();
+    let mut j = job(column(x), stat("mean"), 100_000, 41);
+    set_scheme(&mut j, SchemeSpec::Cluster { clusters });
+    let o = run(&j);
+    // The replicate distribution has 35 atoms and is far from normal, so the relative MC error
+    // of the standard error comes from its exact kurtosis κ: √((κ − 1)/(4B)); 4 of them.
+    let kurtosis = draws.iter().map(|(k, p)| p * (value(k) - mean).powi(4)).sum::<f64>() / want.powi(4);
+    let tol = 4.0 * ((kurtosis - 1.0) / (4.0 * o.resamples as f64)).sqrt() * want;
+    assert!(
+        (o.standard_error - want).abs() < tol,
+        "unequal clusters {} vs {want} ± {tol} (κ = {kurtosis:.2})",
+        o.standard_error
+    );
+}
+
 #[test]
 fn the_nested_standard_error_under_strata_resamples_within_the_strata() {
     use bandsaw::engine::job::Include;
