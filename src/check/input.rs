@@ -95,21 +95,59 @@ fn lines(file: &str, text: &str) -> Result<Runs, InputError> {
     runs_of(values, file)
 }
 
+/// A JSON file of runs as read: an array, or an object whose benchmark names are unique (a
+/// plain JSON reader keeps the last of two equal names without a word).
+enum Top {
+    Array(Vec<Value>),
+    Suite(Map<String, Value>),
+}
+
+impl<'de> serde::Deserialize<'de> for Top {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        use serde::de::{self, MapAccess, SeqAccess, Visitor};
+        struct Runs;
+        impl<'de> Visitor<'de> for Runs {
+            type Value = Top;
+            fn expecting(&self, f: &mut std::fmt::Formatter) -> std::fmt::Result {
+                f.write_str("an array of runs, or an object of benchmark name → runs")
+            }
+            fn visit_seq<A: SeqAccess<'de>>(self, mut a: A) -> Result<Top, A::Error> {
+                let mut runs = Vec::new();
+                while let Some(x) = a.next_element()? {
+                    runs.push(x);
+                }
+                Ok(Top::Array(runs))
+            }
+            fn visit_map<A: MapAccess<'de>>(self, mut a: A) -> Result<Top, A::Error> {
+                let mut suite = Map::new();
+                while let Some(name) = a.next_key::<String>()? {
+                    if suite.contains_key(&name) {
+                        return Err(de::Error::custom(format!("benchmark {name:?} is named twice")));
+                    }
+                    suite.insert(name, a.next_value()?);
+                }
+                Ok(Top::Suite(suite))
+            }
+        }
+        d.deserialize_any(Runs)
+    }
+}
+
 /// A JSON array of runs, or a JSON object of benchmark name → runs.
 fn json(file: &str, text: &str) -> Result<Runs, InputError> {
-    let value: Value = serde_json::from_str(text).map_err(|e| {
+    let top: Top = serde_json::from_str(text).map_err(|e| {
         let (line, column) = (e.line() as u64, e.column());
         // serde_json's message ends with the place, which the error already leads with.
         let message = e.to_string();
         let what = message.split(" at line ").next().unwrap_or(&message);
-        InputError::at(file, Some(line), format!("column {column}: not valid JSON: {what}"))
+        let kind = if e.is_data() { "" } else { "not valid JSON: " };
+        InputError::at(file, Some(line), format!("column {column}: {kind}{what}"))
     })?;
-    match value {
-        Value::Array(a) if a.is_empty() => Err(InputError::at(file, None, "holds no runs")),
-        Value::Array(a) => Ok(Runs::One(Value::Array(a))),
-        Value::Object(o) if o.is_empty() => Err(InputError::at(file, None, "names no benchmarks")),
-        Value::Object(o) => Ok(Runs::Suite(o)),
-        _ => unreachable!("the text starts with [ or {{"),
+    match top {
+        Top::Array(a) if a.is_empty() => Err(InputError::at(file, None, "holds no runs")),
+        Top::Array(a) => Ok(Runs::One(Value::Array(a))),
+        Top::Suite(o) if o.is_empty() => Err(InputError::at(file, None, "names no benchmarks")),
+        Top::Suite(o) => Ok(Runs::Suite(o)),
     }
 }
 
@@ -190,6 +228,10 @@ mod tests {
         );
         assert_eq!(err("a,b\n1,2\n3,x\n", Some("b")), r#"runs.txt:3: column "b": "x" is not a number"#);
         assert_eq!(err("{}", None), "runs.txt: names no benchmarks");
+        assert_eq!(
+            err("{\"parse\": [1, 2],\n \"parse\": [3]}", None),
+            r#"runs.txt:2: column 8: benchmark "parse" is named twice"#
+        );
         assert_eq!(
             err("a,b\n1,2\n3\n", Some("b")),
             r#"runs.txt:3: the row has 1 cells, so none in column "b""#
