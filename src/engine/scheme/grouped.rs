@@ -172,11 +172,6 @@ impl Cluster {
             total: order.len() as f64,
         })
     }
-
-    /// The units of each cluster: what a jackknife leaves out in turn.
-    pub fn clusters(&self) -> &[Vec<u32>] {
-        &self.clusters
-    }
 }
 
 impl Resampler for Cluster {
