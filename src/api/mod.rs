@@ -555,8 +555,8 @@ pub(crate) async fn compare_route(State(app): State<AppState>, headers: HeaderMa
 
 /// Many jobs in one request
 ///
-/// Many jobs in one request, checked together and run in order on one compute slot, sharing
-/// the request's time limit; the estimated work of all of them together must be within the
+/// Many jobs in one request, checked together and run together on one compute slot's threads,
+/// sharing the request's time limit; the estimated work of all of them together must be within the
 /// server's work limit. One `ok` result or one `error` problem per job, in the order of the
 /// jobs: a bad job does not sink the batch, and its problem's pointers start with
 /// `/jobs/<index>` so that they point into the batch request.
