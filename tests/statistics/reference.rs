@@ -141,6 +141,27 @@ fn exceedance_is_the_binomial_share_above_its_threshold() {
     let o = run(&j);
     assert!((o.standard_error - want).abs() < tol, "{} vs {want} ± {tol}", o.standard_error);
     assert_eq!(o.diagnostics.studentized_standard_error.map(|s| s.name()), Some("analytic"));
+    // Under a scheme that reads rows in order (clusters of consecutive rows, unsorted values),
+    // the exceedance of 300 is the proportion of the rows' 0/1 indicators, resample by
+    // resample: the same bits.
+    let rows: Vec<f64> = (0..40).map(|i| ((i * 37) % 23) as f64 * 30.0).collect();
+    let indicator: Vec<f64> = rows.iter().map(|v| if *v > 300.0 { 1.0 } else { 0.0 }).collect();
+    let clusters: Vec<bandsaw::engine::scheme::Label> = (0..40).map(|i| bandsaw::engine::scheme::Label::Integer(i / 4)).collect();
+    let by = |x: Vec<f64>, statistic: StatisticSpec| {
+        let mut j = job(column(x), statistic, 2000, 3);
+        set_scheme(
+            &mut j,
+            SchemeSpec::Cluster {
+                clusters: clusters.clone(),
+            },
+        );
+        run(&j)
+    };
+    let (a, b) = (
+        by(rows, spec(json!({"name": "exceedance", "threshold": 300}))),
+        by(indicator, stat("proportion")),
+    );
+    assert_eq!((a.estimate, a.standard_error), (b.estimate, b.standard_error));
 }
 
 #[test]
@@ -148,7 +169,7 @@ fn stratified_and_cluster_means_have_their_textbook_bootstrap_variances() {
     use bandsaw::engine::scheme::Label;
     // Invented: basket sizes (items) of 24 orders from three store regions of 6, 8 and 10
     // orders. Resampled within regions, the mean's ideal bootstrap variance is
-    // Σ (n_h/n)² σ̂_h²/n_h with each region's plug-in variance (Davison & Hinkley 1997, §3.7).
+    // Σ (n_h/n)² σ̂_h²/n_h with each region's plug-in variance (Davison & Hinkley 1997, §3.7; from memory).
     let regions: [&[f64]; 3] = [
         &[3.0, 5.0, 4.0, 6.0, 2.0, 5.0],
         &[7.0, 9.0, 6.0, 8.0, 10.0, 7.0, 9.0, 8.0],
@@ -179,7 +200,7 @@ fn stratified_and_cluster_means_have_their_textbook_bootstrap_variances() {
     );
     // Invented: items per session of 8 shoppers with 4 sessions each (equal cluster sizes).
     // Drawing whole shoppers, the mean is the mean of C shopper means, so its ideal bootstrap
-    // variance is the plug-in variance of the shopper means over C (Davison & Hinkley 1997,
+    // variance is the plug-in variance of the shopper means over C (from memory: Davison & Hinkley 1997,
     // §3.8).
     let shoppers: Vec<[f64; 4]> = vec![
         [2.0, 3.0, 2.0, 4.0],
@@ -286,7 +307,7 @@ fn the_nested_standard_error_under_strata_resamples_within_the_strata() {
     // expectation Σ (n_h/n)² σ̂*_h²/n_h on an outer resample, and an outer stratified resample
     // has E σ̂*_h² = (n_h − 1)/n_h · σ̂_h² (plug-in variances), so the mean of the squared nested
     // standard errors over the outer resamples estimates Σ (n_h/n)² (n_h − 1)/n_h · σ̂_h²/n_h
-    // exactly (Davison & Hinkley 1997, §3.7; the identities of the plug-in variance). Resampled
+    // exactly (Davison & Hinkley 1997, §3.7, from memory; the identities of the plug-in variance). Resampled
     // as iid instead, it would estimate the larger unstratified variance.
     let regions: [&[f64]; 2] = [
         &[3.0, 5.0, 4.0, 6.0, 2.0, 5.0, 4.0, 3.0],

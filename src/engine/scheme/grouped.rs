@@ -77,6 +77,13 @@ fn one_per_row(labels: &[Label], rows: usize, (scheme, field): (&'static str, &'
     }
 }
 
+/// As many rows as `rows` holds, drawn from it with replacement, counted in `w` by unit.
+fn draw_from(rows: &[u32], rng: &mut ChaCha8Rng, w: &mut [f64]) {
+    for _ in 0..rows.len() {
+        w[rows[rng.random_range(0..rows.len())] as usize] += 1.0;
+    }
+}
+
 /// Rows resampled within their strata.
 pub struct Stratified {
     strata: Vec<Vec<u32>>,
@@ -111,10 +118,7 @@ impl Resampler for Stratified {
     fn draw(&self, _: u64, rng: &mut ChaCha8Rng, w: &mut [f64]) -> Option<f64> {
         w.fill(0.0);
         for stratum in &self.strata {
-            let n = stratum.len();
-            for _ in 0..n {
-                w[stratum[rng.random_range(0..n)] as usize] += 1.0;
-            }
+            draw_from(stratum, rng, w);
         }
         None
     }
@@ -140,10 +144,7 @@ impl Resampler for Stratified {
         w.fill(0.0);
         let mut start = 0;
         for &end in &within.bounds {
-            let rows = &within.rows[start..end];
-            for _ in 0..rows.len() {
-                w[rows[rng.random_range(0..rows.len())] as usize] += 1.0;
-            }
+            draw_from(&within.rows[start..end], rng, w);
             start = end;
         }
     }

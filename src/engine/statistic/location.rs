@@ -125,10 +125,12 @@ pub struct ExceedanceSpec {
 
 impl ColumnSpec for ExceedanceSpec {
     const ANALYTIC_SE: bool = true;
-    fn build(&self, _: &ColumnLayout, values: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
+    /// The indicator of each unit (the layout's units, which weights index: not the rows as
+    /// sent, whose order differs).
+    fn build(&self, c: &ColumnLayout, _: &[f64]) -> Result<Box<dyn ColumnStatistic>, Vec<DataError>> {
         let t = self.threshold.get();
         Ok(Box::new(Exceedance {
-            above: values.iter().map(|v| if *v > t { 1.0 } else { 0.0 }).collect(),
+            above: c.x.iter().map(|v| if *v > t { 1.0 } else { 0.0 }).collect(),
         }))
     }
     const ON_BINS: bool = true;
