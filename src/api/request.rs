@@ -259,6 +259,7 @@ pub fn job(p: &Params, samples: Samples, seed: u64, on_time_limit: OnTimeLimit, 
         recorded_stop: replay
             .filter(|_| p.resamples != Resamples::Mode(ResampleMode::Exact))
             .map(|r| r.stop),
+        shortcuts: true,
     }
 }
 

@@ -13,7 +13,7 @@ use crate::engine::jackknife::{self, JackknifeKind};
 use crate::engine::job::{Contrast, Include, Job, Resampled, Samples};
 use crate::engine::kernel::{contrast_se, Arm, Kernel, Pair, SeSource, Target};
 use crate::engine::plan::{self, Ended, Plan, Resamples, Source, Stop};
-use crate::engine::scheme::SchemeError;
+use crate::engine::scheme::{SchemeError, SchemeSpec};
 use crate::engine::statistic::Weighted;
 use crate::engine::summary::{self, IntervalResult, Reader, Summary, SummaryInput};
 
@@ -122,11 +122,14 @@ fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<Bound, R
         Resamples::Exact => part.scheme.enumerator(units, job.max_resamples).map_err(RunError::Scheme)?,
         _ => part.scheme.resampler(units, estimator.unit_of_row()).map_err(RunError::Scheme)?,
     };
+    let iid = part.scheme == SchemeSpec::Iid {} && job.resamples != Resamples::Exact;
+    let shortcut = (job.shortcuts && iid).then(|| estimator.shortcut()).flatten();
     Ok((
         Arm {
             estimator,
             resampler,
             stream,
+            shortcut,
         },
         estimate,
     ))

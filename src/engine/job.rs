@@ -123,6 +123,9 @@ pub struct Job {
     /// Set when replaying a token: the stop the original run reported, so that the replay
     /// (which draws exactly the recorded number of resamples) reports the same.
     pub recorded_stop: Option<Stop>,
+    /// Compute `iid` replicates by the exact shortcuts of [`crate::engine::statistic::shortcut`] where a
+    /// statistic has one (always, but for tests that hold them against the plain path).
+    pub shortcuts: bool,
 }
 
 /// The default most resamples of a job.
@@ -146,6 +149,7 @@ impl Job {
             max_resamples: DEFAULT_MAX_RESAMPLES,
             max_work: DEFAULT_MAX_WORK,
             recorded_stop: None,
+            shortcuts: true,
         }
     }
 

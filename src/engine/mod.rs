@@ -15,6 +15,7 @@ pub mod cost;
 pub mod data;
 pub mod diagnostics;
 pub mod distribution;
+pub mod draw;
 pub mod driver;
 pub mod executor;
 pub mod extras;

@@ -17,7 +17,7 @@
 
 use std::fmt;
 
-use rand::Rng;
+use crate::engine::draw;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, Geometric};
 use serde::de::{self, Visitor};
@@ -148,10 +148,10 @@ impl Resampler for Blocks {
         let mut filled = 0;
         while filled < n {
             let (start, len) = match self.kind {
-                BlockKind::Moving => (rng.random_range(0..=n - fixed), fixed),
-                BlockKind::Circular => (rng.random_range(0..n), fixed),
+                BlockKind::Moving => (draw::index_below(rng, n - fixed + 1), fixed),
+                BlockKind::Circular => (draw::index_below(rng, n), fixed),
                 // Geometric counts failures before the first success: 1 + that has mean L.
-                BlockKind::Stationary => (rng.random_range(0..n), 1 + geometric.sample(rng) as usize),
+                BlockKind::Stationary => (draw::index_below(rng, n), 1 + geometric.sample(rng) as usize),
             };
             let take = len.min(n - filled);
             for t in start..start + take {

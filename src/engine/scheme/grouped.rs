@@ -12,7 +12,7 @@
 
 use std::collections::HashMap;
 
-use rand::Rng;
+use crate::engine::draw;
 use rand_chacha::ChaCha8Rng;
 use serde::{Deserialize, Serialize};
 use utoipa::openapi::schema::{ObjectBuilder, Schema, SchemaType, Type};
@@ -80,7 +80,7 @@ fn one_per_row(labels: &[Label], rows: usize, (scheme, field): (&'static str, &'
 /// As many rows as `rows` holds, drawn from it with replacement, counted in `w` by unit.
 fn draw_from(rows: &[u32], rng: &mut ChaCha8Rng, w: &mut [f64]) {
     for _ in 0..rows.len() {
-        w[rows[rng.random_range(0..rows.len())] as usize] += 1.0;
+        w[rows[draw::index_below(rng, rows.len())] as usize] += 1.0;
     }
 }
 
@@ -180,7 +180,7 @@ impl Resampler for Cluster {
         w.fill(0.0);
         let c = self.clusters.len();
         for _ in 0..c {
-            for unit in &self.clusters[rng.random_range(0..c)] {
+            for unit in &self.clusters[draw::index_below(rng, c)] {
                 w[*unit as usize] += 1.0;
             }
         }
@@ -206,7 +206,7 @@ impl Resampler for Cluster {
         w.fill(0.0);
         let drawn = &within.rows;
         for _ in 0..drawn.len() {
-            for unit in &self.clusters[drawn[rng.random_range(0..drawn.len())] as usize] {
+            for unit in &self.clusters[drawn[draw::index_below(rng, drawn.len())] as usize] {
                 w[*unit as usize] += 1.0;
             }
         }

@@ -1,10 +1,9 @@
 //! Sampling with replacement.
 
-use rand::Rng;
 use rand_chacha::ChaCha8Rng;
-use rand_distr::{Binomial, Distribution};
 
 use super::{Resampler, Within};
+use crate::engine::draw;
 use crate::engine::statistic::Units;
 
 /// Below this many observations per unit, a nested resample is drawn from the resample's rows
@@ -73,22 +72,23 @@ pub fn draw_within(size: f64, outer: &[f64], within: &Within, rng: &mut ChaCha8R
     }
     let m = within.rows.len();
     for _ in 0..m {
-        w[within.rows[rng.random_range(0..m)] as usize] += 1.0;
+        w[within.rows[draw::index_below(rng, m)] as usize] += 1.0;
     }
 }
 
-/// n rows drawn uniformly with replacement: `w[i]` becomes how often row i was drawn.
-/// `w` must hold n zeros.
+/// n rows drawn uniformly with replacement (by [`draw::rows`], chunk by chunk): `w[i]` becomes
+/// how often row i was drawn. `w` must hold n zeros.
 pub fn draw_rows(rng: &mut ChaCha8Rng, w: &mut [f64]) {
-    let n = w.len();
-    for _ in 0..n {
-        w[rng.random_range(0..n)] += 1.0;
-    }
+    draw::rows(rng, w.len(), |idx| {
+        for i in idx {
+            w[*i as usize] += 1.0;
+        }
+    });
 }
 
 /// A multinomial draw of `size` items over units with masses `mass` (total `total`), by
 /// conditional binomials: unit j receives Binomial(remaining, mass_j / remaining mass). It takes
-/// O(units) binomial variates (BTPE, Kachitvichyanukul & Schmeiser 1988, via `rand_distr`)
+/// O(units) binomial variates ([`draw::binomial`])
 /// instead of O(size) uniform draws, which is what lets aggregated data with large counts
 /// resample in O(distinct values).
 pub fn multinomial(rng: &mut ChaCha8Rng, size: u64, mass: &[f64], total: f64, w: &mut [f64]) {
@@ -99,14 +99,7 @@ pub fn multinomial(rng: &mut ChaCha8Rng, size: u64, mass: &[f64], total: f64, w:
             w[j] = 0.0;
             continue;
         }
-        let p = m / remaining_mass;
-        let k = if p >= 1.0 {
-            remaining
-        } else if p <= 0.0 {
-            0
-        } else {
-            Binomial::new(remaining, p).expect("0 < p < 1").sample(rng)
-        };
+        let k = draw::binomial(rng, remaining, m / remaining_mass);
         w[j] = k as f64;
         remaining -= k;
         remaining_mass -= m;

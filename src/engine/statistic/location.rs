@@ -6,6 +6,7 @@ use utoipa::ToSchema;
 use super::binned::{BinStatistic, CellMean};
 use super::{jackknife_means, weighted_mean, weighted_plugin_variance, ColumnSpec, ColumnStatistic, Scratch};
 use crate::engine::data::{BinLayout, ColumnLayout, DataError};
+use crate::engine::statistic::shortcut::Shortcut;
 
 /// Arithmetic mean.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize, ToSchema)]
@@ -166,6 +167,9 @@ impl ColumnStatistic for Exceedance {
     fn analytic_se(&self, _: &ColumnLayout, w: &[f64]) -> Option<f64> {
         binomial_se(&self.above, w)
     }
+    fn shortcut(&self, c: &ColumnLayout) -> Option<Shortcut> {
+        Some(Shortcut::share(&self.above, c))
+    }
 }
 
 /// √(p̂(1 − p̂)/n) for the weighted share p̂ of indicators.
@@ -190,6 +194,9 @@ impl ColumnStatistic for Mean {
         let total: f64 = w.iter().sum();
         Some((weighted_plugin_variance(&c.x, w) / total).sqrt())
     }
+    fn shortcut(&self, c: &ColumnLayout) -> Option<Shortcut> {
+        Shortcut::mean(c)
+    }
 }
 
 /// The share of values equal to 1 in data of 0s and 1s.
@@ -205,6 +212,9 @@ impl ColumnStatistic for Proportion {
     /// √(p̂(1 − p̂)/n), the binomial standard error.
     fn analytic_se(&self, c: &ColumnLayout, w: &[f64]) -> Option<f64> {
         binomial_se(&c.x, w)
+    }
+    fn shortcut(&self, c: &ColumnLayout) -> Option<Shortcut> {
+        Some(Shortcut::share(&c.x, c))
     }
 }
 

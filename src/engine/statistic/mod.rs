@@ -22,9 +22,11 @@ pub mod association;
 pub mod binned;
 pub mod location;
 pub mod quantile;
+pub mod shortcut;
 pub mod spread;
 
 use crate::engine::data::{BinLayout, ColumnLayout, DataError, Form, Layout, Sample, TableLayout};
+use crate::engine::statistic::shortcut::Shortcut;
 use binned::{BinStatistic, Note};
 
 /// A statistic of one column, evaluated on a weighted view of it.
@@ -42,6 +44,12 @@ pub trait ColumnStatistic: Send + Sync {
     /// An analytic (delta-method or plug-in) standard error on a weighted sample, for the
     /// studentized interval; `None` means a nested bootstrap is needed.
     fn analytic_se(&self, _c: &ColumnLayout, _w: &[f64]) -> Option<f64> {
+        None
+    }
+
+    /// How an `iid` replicate is computed straight from its stream without weights, where that
+    /// changes the cost class (see [`crate::engine::statistic::shortcut`]); `None` for the plain path.
+    fn shortcut(&self, _c: &ColumnLayout) -> Option<Shortcut> {
         None
     }
 }
@@ -353,6 +361,22 @@ impl Estimator {
         }
     }
 
+    /// The shortcut for `iid` replicates of a statistic of one column, where it has one.
+    pub fn shortcut(&self) -> Option<Shortcut> {
+        match self {
+            Estimator::Column { data, stat } => stat.shortcut(data),
+            _ => None,
+        }
+    }
+
+    /// The layout of a statistic of one column.
+    pub fn column(&self) -> Option<&ColumnLayout> {
+        match self {
+            Estimator::Column { data, .. } => Some(data),
+            _ => None,
+        }
+    }
+
     /// What reading the statistic from this data assumed that the caller should know.
     pub fn notes(&self) -> Vec<Note> {
         match self {
@@ -448,6 +472,16 @@ impl Scratch {
             b: Vec::with_capacity(units),
             pair: [Vec::new(), Vec::new()],
         }
+    }
+}
+
+/// a + frac·(b − a), exactly a when frac is 0 (the interpolation of definition 7 quantiles).
+#[inline]
+pub(crate) fn interpolate(a: f64, b: f64, frac: f64) -> f64 {
+    if frac == 0.0 {
+        a
+    } else {
+        a + frac * (b - a)
     }
 }
 

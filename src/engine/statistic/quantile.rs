@@ -11,8 +11,9 @@ use serde::{Deserialize, Serialize};
 use utoipa::ToSchema;
 
 use super::binned::{BinIqr, BinQuantile, BinStatistic};
-use super::{ColumnSpec, ColumnStatistic, Scratch};
+use super::{interpolate, ColumnSpec, ColumnStatistic, Scratch};
 use crate::engine::data::{BinLayout, ColumnLayout, DataError};
+use crate::engine::statistic::shortcut::Shortcut;
 
 /// A tail holding fewer observations than this makes a quantile a statistic of the extremes,
 /// whose bootstrap distribution cannot see past the most extreme observations (common practice).
@@ -139,15 +140,6 @@ pub(crate) fn weighted_quantile(x: &[f64], w: &[f64], total: f64, p: f64) -> f64
     interpolate(a, b, h - t)
 }
 
-#[inline]
-fn interpolate(a: f64, b: f64, frac: f64) -> f64 {
-    if frac == 0.0 {
-        a
-    } else {
-        a + frac * (b - a)
-    }
-}
-
 /// Leave-one-out definition 7 quantiles in O(units): deleting one copy of unit j from the
 /// sorted sample leaves order statistic t equal to the original x₍t₎ when t < C_j − 1 and to
 /// x₍t+1₎ otherwise (C_j the cumulative count through unit j), so only three original order
@@ -184,6 +176,9 @@ impl ColumnStatistic for Quantile {
     fn jackknife_closed(&self, c: &ColumnLayout) -> Option<Vec<f64>> {
         Some(jackknife_quantiles(c, self.p))
     }
+    fn shortcut(&self, c: &ColumnLayout) -> Option<Shortcut> {
+        Some(Shortcut::order(c, &[self.p]))
+    }
 }
 
 /// The interquartile range Q(0.75) − Q(0.25).
@@ -198,6 +193,9 @@ impl ColumnStatistic for Iqr {
         let hi = jackknife_quantiles(c, 0.75);
         let lo = jackknife_quantiles(c, 0.25);
         Some(hi.iter().zip(&lo).map(|(h, l)| h - l).collect())
+    }
+    fn shortcut(&self, c: &ColumnLayout) -> Option<Shortcut> {
+        Some(Shortcut::order(c, &[0.25, 0.75]))
     }
 }
 
