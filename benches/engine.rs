@@ -103,7 +103,6 @@ fn main() {
         })
         .collect();
 
-    let x = standard_normal(n, DATA_SEED);
     let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().expect("rayon pool");
 
     for (name, spec) in stats {
@@ -113,7 +112,9 @@ fn main() {
         for r in 0..repeats {
             // Build the job outside the timed region; preparing it lays the data out (that is
             // part of a request's work, as drawing the data is not part of numpy's).
-            let sample = Sample::column(x.clone()).expect("finite data");
+            // Drawn afresh each time and moved into the job, so that the process holds one copy
+            // of the data and its peak memory reads against the data's size.
+            let sample = Sample::column(standard_normal(n, DATA_SEED)).expect("finite data");
             let mut job = Job::new(Samples::One(Resampled::iid(sample)), spec.clone(), 1000 + r as u64);
             job.resamples = Resamples::Fixed(b);
             job.methods = vec![Method::Percentile];

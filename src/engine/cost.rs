@@ -8,7 +8,7 @@ use crate::engine::jackknife;
 use crate::engine::job::Job;
 use crate::engine::kernel::Target;
 use crate::engine::plan::{Resamples, AUTO_START};
-use crate::engine::statistic::Weighted;
+use crate::engine::statistic::{Estimator, Weighted};
 
 /// The estimated work of a job, and how many resamples it may draw within its limits.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -26,11 +26,23 @@ pub struct OverLimit {
     pub limit: f64,
 }
 
-/// Row-draws of one replicate, over every sample.
+/// Row-draws of one replicate, over every sample: a sample whose replicates take a shortcut
+/// costs what the shortcut says, any other its units times the statistic's relative cost.
 fn per_resample(job: &Job, target: &Target) -> f64 {
     let nested = job.nested_studentized();
     let factor = job.statistic.relative_cost() * if nested { 1.0 + job.inner_resamples.get() as f64 } else { 1.0 };
-    target.estimators().iter().map(|e| e.units().base.len() as f64 * factor).sum()
+    let plain = |e: &Estimator| e.units().base.len() as f64 * factor;
+    let arms = target.arms();
+    if arms.is_empty() {
+        return target.estimators().into_iter().map(plain).sum();
+    }
+    let studentized = job.wants(Method::Studentized);
+    arms.iter()
+        .map(|a| match a.shortcut(studentized) {
+            Some((s, c)) => s.cost(c.x.len()),
+            None => plain(&a.estimator),
+        })
+        .sum()
 }
 
 /// Row-draws of BCa's jackknife, which runs once per job before the resamples.

@@ -16,6 +16,7 @@
 //! them, so they travel with the sample and its scheme
 //! ([`Resampled`](crate::engine::job::Resampled)).
 
+use rayon::prelude::*;
 use sha2::{Digest, Sha256};
 
 /// The largest magnitude accepted in data. A variance of such data is at most about 1e150, so
@@ -378,26 +379,34 @@ pub struct ColumnLayout {
     pub total: f64,
     /// True when every base weight is 1 (raw rows), so that rows can be drawn uniformly.
     pub raw: bool,
-    /// For raw rows: the unit (sorted position) of row t, for t in the order sent.
-    pub unit_of_row: Vec<u32>,
 }
 
 impl ColumnLayout {
-    /// Raw rows: sorted once, remembering where each row went.
+    /// Raw rows: their values sorted once (a parallel sort of the values themselves, which reads
+    /// memory in order; where each row went is worked out only for the schemes that read rows
+    /// in order, by [`ColumnLayout::units_of_rows`]).
     pub fn rows(x: &[f64]) -> ColumnLayout {
-        let mut order: Vec<u32> = (0..x.len() as u32).collect();
-        order.sort_by(|a, b| x[*a as usize].total_cmp(&x[*b as usize]));
-        let mut unit_of_row = vec![0u32; x.len()];
-        for (unit, row) in order.iter().enumerate() {
-            unit_of_row[*row as usize] = unit as u32;
-        }
+        let mut sorted = x.to_vec();
+        sorted.par_sort_unstable_by(f64::total_cmp);
         ColumnLayout {
-            x: order.iter().map(|r| x[*r as usize]).collect(),
+            x: sorted,
             base: vec![1.0; x.len()],
             total: x.len() as f64,
             raw: true,
-            unit_of_row,
         }
+    }
+
+    /// For raw rows laid out from `rows` (the values in the order sent): the unit (sorted
+    /// position) of each row, ties in the order sent. Sorts row numbers by their values, 4 bytes
+    /// a row beside the data.
+    pub fn units_of_rows(&self, rows: &[f64]) -> Vec<u32> {
+        let mut order: Vec<u32> = (0..rows.len() as u32).collect();
+        order.par_sort_unstable_by(|a, b| rows[*a as usize].total_cmp(&rows[*b as usize]).then(a.cmp(b)));
+        let mut unit_of_row = vec![0u32; rows.len()];
+        for (unit, row) in order.iter().enumerate() {
+            unit_of_row[*row as usize] = unit as u32;
+        }
+        unit_of_row
     }
 
     /// Aggregated data: the observed distinct values, sorted, with their counts.
@@ -409,7 +418,6 @@ impl ColumnLayout {
             base: pairs.iter().map(|p| p.1 as f64).collect(),
             total: pairs.iter().map(|p| p.1 as f64).sum(),
             raw: false,
-            unit_of_row: Vec::new(),
         }
     }
 }
@@ -534,7 +542,9 @@ mod tests {
         let x = [5.0, 1.0, 4.0, 1.0, 3.0];
         let c = ColumnLayout::rows(&x);
         assert_eq!(c.x, vec![1.0, 1.0, 3.0, 4.0, 5.0]);
-        let back: Vec<f64> = c.unit_of_row.iter().map(|u| c.x[*u as usize]).collect();
+        let units = c.units_of_rows(&x);
+        assert_eq!(units, vec![4, 0, 3, 1, 2], "ties keep the order sent");
+        let back: Vec<f64> = units.iter().map(|u| c.x[*u as usize]).collect();
         assert_eq!(back, x);
     }
 

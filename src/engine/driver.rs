@@ -120,7 +120,11 @@ fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<Bound, R
     let units = estimator.units();
     let resampler = match job.resamples {
         Resamples::Exact => part.scheme.enumerator(units, job.max_resamples).map_err(RunError::Scheme)?,
-        _ => part.scheme.resampler(units, estimator.unit_of_row()).map_err(RunError::Scheme)?,
+        _ => {
+            // Only schemes that read rows in order get them (a copy of 4 bytes a row).
+            let order = part.scheme.reads_rows().then(|| estimator.unit_of_row(&part.sample)).flatten();
+            part.scheme.resampler(units, order).map_err(RunError::Scheme)?
+        }
     };
     let iid = part.scheme == SchemeSpec::Iid {} && job.resamples != Resamples::Exact;
     let shortcut = (job.shortcuts && iid).then(|| estimator.shortcut()).flatten();
@@ -159,11 +163,8 @@ fn paired(job: &Job, baseline: &Resampled, candidate: &Resampled, contrast: Cont
     let ((b, eb), (c, ec)) = arms(job, baseline, candidate)?;
     let (nb, nc) = (baseline.sample.rows(), candidate.sample.rows());
     // The refusal points at the sample to fix: an aggregated one, else the candidate.
-    let which = match b.estimator.unit_of_row() {
-        None => Which::Baseline,
-        Some(_) => Which::Candidate,
-    };
-    let pair = Pair::new(b.estimator, c.estimator, contrast).ok_or_else(|| {
+    let which = if b.estimator.has_rows() { Which::Candidate } else { Which::Baseline };
+    let pair = Pair::new([(b.estimator, &baseline.sample), (c.estimator, &candidate.sample)], contrast).ok_or_else(|| {
         RunError::data(
             which,
             vec![DataError::NotPaired {

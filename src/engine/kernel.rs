@@ -9,7 +9,7 @@ use rand_chacha::ChaCha8Rng;
 use crate::engine::executor::Replicate;
 use crate::engine::job::Contrast;
 use crate::engine::rng::sample_stream;
-use crate::engine::data::ColumnLayout;
+use crate::engine::data::{ColumnLayout, Sample};
 use crate::engine::scheme::{Resampler, Within};
 use crate::engine::statistic::shortcut::Shortcut;
 use crate::engine::statistic::{Estimator, Scratch, Units, Weighted};
@@ -41,7 +41,7 @@ impl Arm {
 
     /// The shortcut and the column it reads, when it gives all that a replicate needs (a
     /// standard error too, for `studentized`).
-    fn shortcut(&self, studentized: bool) -> Option<(&Shortcut, &ColumnLayout)> {
+    pub fn shortcut(&self, studentized: bool) -> Option<(&Shortcut, &ColumnLayout)> {
         let s = self.shortcut.as_ref().filter(|s| !studentized || s.gives_se())?;
         Some((s, self.estimator.column()?))
     }
@@ -60,10 +60,11 @@ pub struct Pair {
 }
 
 impl Pair {
-    /// Pair two statistics whose samples have the same rows; `None` when a sample has no rows
-    /// (aggregated data) or their numbers differ.
-    pub fn new(baseline: Estimator, candidate: Estimator, contrast: Contrast) -> Option<Pair> {
-        let (b, c) = (baseline.unit_of_row()?, candidate.unit_of_row()?);
+    /// Pair two statistics, each with the sample it was built from (baseline first), whose
+    /// samples have the same rows; `None` when a sample has no rows (aggregated data) or their
+    /// numbers differ.
+    pub fn new([(baseline, bs), (candidate, cs)]: [(Estimator, &Sample); 2], contrast: Contrast) -> Option<Pair> {
+        let (b, c) = (baseline.unit_of_row(bs)?, candidate.unit_of_row(cs)?);
         (b.len() == c.len()).then(|| Pair {
             rows: vec![1.0; b.len()],
             unit_of_row: [b, c],

@@ -13,6 +13,7 @@ const EXPAND_BELOW: u64 = 8;
 
 /// `iid` resampling of one sample.
 pub struct Iid {
+    /// The units' counts, for aggregated data (raw rows are drawn uniformly and keep none).
     base: Vec<f64>,
     total: f64,
     raw: bool,
@@ -21,7 +22,7 @@ pub struct Iid {
 impl Iid {
     pub fn new(units: Units<'_>) -> Self {
         Iid {
-            base: units.base.to_vec(),
+            base: if units.raw { Vec::new() } else { units.base.to_vec() },
             total: units.total,
             raw: units.raw,
         }

@@ -180,6 +180,12 @@ impl SchemeSpec {
         matches!(self, SchemeSpec::Iid {} | SchemeSpec::Bayesian {})
     }
 
+    /// True for the schemes that read each row where it was sent (blocks in time order, labels
+    /// beside rows): only they need [`SchemeSpec::resampler`]'s `order`.
+    pub fn reads_rows(&self) -> bool {
+        !matches!(self, SchemeSpec::Iid {} | SchemeSpec::Bayesian {})
+    }
+
     /// A block scheme's kind and length.
     pub fn block(&self) -> Option<(BlockKind, BlockLength)> {
         match *self {

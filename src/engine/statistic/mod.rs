@@ -412,13 +412,23 @@ impl Estimator {
         self.evaluate(units.base, &mut Scratch::with_units(units.base.len()))
     }
 
-    /// The unit of every row in the order sent, when the units are rows (raw rows of a column,
-    /// or the rows of named columns); `None` for aggregated and binned data, which have no rows.
-    pub fn unit_of_row(&self) -> Option<Vec<u32>> {
+    /// True when the units are rows (raw rows of a column, or the rows of named columns), not
+    /// aggregated or binned data, which have no rows.
+    pub fn has_rows(&self) -> bool {
         match self {
-            Estimator::Column { data, .. } if data.raw => Some(data.unit_of_row.clone()),
-            Estimator::Column { .. } | Estimator::Bins { .. } => None,
-            Estimator::Table { data, .. } => Some((0..data.rows as u32).collect()),
+            Estimator::Column { data, .. } => data.raw,
+            Estimator::Bins { .. } => false,
+            Estimator::Table { .. } => true,
+        }
+    }
+
+    /// The unit of every row of `sample` (the sample this was built from) in the order sent,
+    /// when the units are rows; `None` for aggregated and binned data.
+    pub fn unit_of_row(&self, sample: &Sample) -> Option<Vec<u32>> {
+        match (self, sample.form()) {
+            (Estimator::Column { data, .. }, Form::Column(x)) if data.raw => Some(data.units_of_rows(x)),
+            (Estimator::Table { data, .. }, _) => Some((0..data.rows as u32).collect()),
+            _ => None,
         }
     }
 }
