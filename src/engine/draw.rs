@@ -14,9 +14,8 @@ use rand_distr::{Binomial, Distribution};
 /// hit the cache instead of memory.
 pub const CHUNK_ROWS: usize = 1 << 14;
 
-/// Indices handed to a consumer at a time: drawn in a tight loop into a buffer on the stack,
-/// then consumed in a second loop the compiler can unroll.
-pub const BLOCK: usize = 256;
+/// The lanes [`rows`] hands its draws out in.
+pub const LANES: usize = 4;
 
 /// A uniform integer in `0..range` (`range` ≥ 1), exactly unbiased, by Lemire's multiply-shift
 /// with rejection (Lemire, D. (2019), "Fast random integer generation in an interval", ACM
@@ -55,17 +54,26 @@ pub fn binomial(rng: &mut ChaCha8Rng, trials: u64, p: f64) -> u64 {
     }
 }
 
-/// Draw `n` rows uniformly with replacement from `0..n` and hand them to `take` in blocks of
-/// at most [`BLOCK`]. Up to [`CHUNK_ROWS`] rows they are drawn directly; above, the rows are
-/// split into chunks, how many draws land in each chunk is drawn first (a multinomial, by
-/// conditional binomials over the chunks in order), and then that many rows are drawn within
-/// the chunk. The multiset of rows has exactly the distribution of n independent uniform draws;
-/// only the order in which they arrive differs (chunk by chunk), which no statistic of an `iid`
+/// Draw `n` rows uniformly with replacement from `0..n`, calling `take(row, weight, lane)` for
+/// each candidate draw: weight 1 for a row drawn, 0 for a candidate rejected (see below), which
+/// the consumer adds in without a branch (`sum += weight · x[row]`, `w[row] += weight`). `lane`
+/// (0 to [`LANES`] − 1, in turn) lets a sum keep one accumulator a lane, so that its additions do not all
+/// wait on one another.
+///
+/// Up to [`CHUNK_ROWS`] rows are drawn directly; above, the rows are split into chunks, how
+/// many draws land in each chunk is drawn first (a multinomial, by conditional binomials over
+/// the chunks in order), and then that many rows are drawn within the chunk, so that random
+/// reads stay in cache. The multiset of rows has exactly the distribution of n independent
+/// uniform draws; only the order in which they arrive differs, which no statistic of an `iid`
 /// resample sees.
-pub fn rows(rng: &mut ChaCha8Rng, n: usize, mut take: impl FnMut(&[u32])) {
+///
+/// The consumer is moved in and handed back, so that its state (a sum's accumulators) lives in
+/// the drawing loop's own frame, where the compiler keeps it in registers; state reached
+/// through a reference would be written back to memory around every refill of the generator.
+#[inline]
+pub fn rows<T: Take>(rng: &mut ChaCha8Rng, n: usize, mut take: T) -> T {
     if n <= CHUNK_ROWS {
-        within(rng, 0, n, n as u64, &mut take);
-        return;
+        return within(rng, 0, n, n as u64, take);
     }
     let mut draws_left = n as u64;
     let mut start = 0;
@@ -76,60 +84,118 @@ pub fn rows(rng: &mut ChaCha8Rng, n: usize, mut take: impl FnMut(&[u32])) {
         } else {
             binomial(rng, draws_left, len as f64 / (n - start) as f64)
         };
-        within(rng, start, len, here, &mut take);
+        take = within(rng, start, len, here, take);
         draws_left -= here;
         start += len;
     }
+    take
 }
 
-/// `count` uniform rows of `start..start + len`, in blocks.
-#[inline]
-fn within(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u64, take: &mut impl FnMut(&[u32])) {
-    let mut buf = [0u32; BLOCK];
-    let range = u32::try_from(len).expect("at most 2^32 − 1 rows");
-    let offset = start as u32;
-    let mut left = count as usize;
-    while left > 0 {
-        let k = left.min(BLOCK);
-        for slot in &mut buf[..k] {
-            *slot = offset + below(rng, range);
-        }
-        take(&buf[..k]);
-        left -= k;
+/// What [`rows`] hands each candidate draw to: `take(row, weight, lane)`.
+pub trait Take {
+    fn take(&mut self, row: usize, weight: f64, lane: usize);
+}
+
+impl<F: FnMut(usize, f64, usize)> Take for F {
+    #[inline]
+    fn take(&mut self, row: usize, weight: f64, lane: usize) {
+        self(row, weight, lane)
     }
 }
 
-/// The sum of `x` over an `iid` resample's rows (drawn by [`rows`]), with four accumulators so
-/// that the additions do not wait on one another.
-pub fn resampled_sum(rng: &mut ChaCha8Rng, x: &[f64]) -> f64 {
-    let mut acc = [0.0f64; 4];
-    rows(rng, x.len(), |idx| {
-        let mut quads = idx.chunks_exact(4);
-        for q in &mut quads {
-            for (a, i) in acc.iter_mut().zip(q) {
-                *a += x[*i as usize];
+/// `count` uniform rows of `start..start + len` (`len` ≤ [`CHUNK_ROWS`] ≤ 2^16).
+///
+/// Each candidate is Lemire's multiply-shift with rejection (as in [`below`]) on a 16-bit half
+/// of a word, low half first: a chunk's rows need no more bits, so a row costs half a word of
+/// the generator. The rejection threshold (2^16 − len) mod len is computed once per chunk
+/// rather than per draw; a half is rejected with probability threshold/2^16 (about 8 % for
+/// 10⁴ rows), which keeps every row exactly uniform. The rows are the first `count` accepted
+/// halves; a half left over in the last word is not used.
+#[inline]
+fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u64, mut take: T) -> T {
+    debug_assert!(len > 0 && len <= 1 << 16);
+    let range = len as u32;
+    let threshold = ((1u32 << 16) - range) % range;
+    let mut left = count;
+    // Both halves of two words while four rows or more are wanted, then of one word while two
+    // are: no branch on the rejection, and four lanes for a consumer's sums.
+    while left >= 4 {
+        let (a, b) = (rng.next_u32(), rng.next_u32());
+        for (lane, half) in [a & 0xffff, a >> 16, b & 0xffff, b >> 16].into_iter().enumerate() {
+            let m = half * range;
+            let ok = (m & 0xffff) >= threshold;
+            take.take(start + (m >> 16) as usize, f64::from(u8::from(ok)), lane);
+            left -= u64::from(ok);
+        }
+    }
+    while left >= 2 {
+        let word = rng.next_u32();
+        for (lane, half) in [word & 0xffff, word >> 16].into_iter().enumerate() {
+            let m = half * range;
+            let ok = (m & 0xffff) >= threshold;
+            take.take(start + (m >> 16) as usize, f64::from(u8::from(ok)), lane);
+            left -= u64::from(ok);
+        }
+    }
+    // The last row: halves one at a time until one is accepted.
+    while left == 1 {
+        let word = rng.next_u32();
+        for half in [word & 0xffff, word >> 16] {
+            let m = half * range;
+            if (m & 0xffff) >= threshold {
+                take.take(start + (m >> 16) as usize, 1.0, 0);
+                left = 0;
+                break;
             }
         }
-        for (a, i) in acc.iter_mut().zip(quads.remainder()) {
-            *a += x[*i as usize];
+    }
+    take
+}
+
+/// The value of row `i` (< `x.len()` by construction), read without a panicking bounds check:
+/// a possible panic in the loop would make the compiler keep the accumulators in memory (so
+/// that an unwind sees them), at twice the cost per draw.
+#[inline]
+fn at(x: &[f64], i: usize) -> f64 {
+    x.get(i).copied().unwrap_or(0.0)
+}
+
+/// Sums of `x` (and of `x²` when `SQUARES`) over drawn rows, one accumulator a lane.
+struct Sums<'a, const SQUARES: bool> {
+    x: &'a [f64],
+    s: [f64; LANES],
+    q: [f64; LANES],
+}
+
+impl<const SQUARES: bool> Take for Sums<'_, SQUARES> {
+    #[inline]
+    fn take(&mut self, row: usize, weight: f64, lane: usize) {
+        let xi = at(self.x, row);
+        let v = weight * xi;
+        self.s[lane] += v;
+        if SQUARES {
+            self.q[lane] += v * xi;
         }
-    });
-    (acc[0] + acc[1]) + (acc[2] + acc[3])
+    }
+}
+
+impl<const SQUARES: bool> Sums<'_, SQUARES> {
+    fn totals(&self) -> (f64, f64) {
+        let add = |a: &[f64; LANES]| (a[0] + a[1]) + (a[2] + a[3]);
+        (add(&self.s), add(&self.q))
+    }
+}
+
+/// The sum of `x` over an `iid` resample's rows (drawn by [`rows`]).
+pub fn resampled_sum(rng: &mut ChaCha8Rng, x: &[f64]) -> f64 {
+    let zero = [0.0; LANES];
+    rows(rng, x.len(), Sums::<false> { x, s: zero, q: zero }).totals().0
 }
 
 /// The sums of `x` and of `x²` over an `iid` resample's rows, for a mean and its standard error.
 pub fn resampled_sums(rng: &mut ChaCha8Rng, x: &[f64]) -> (f64, f64) {
-    let (mut s, mut q) = ([0.0f64; 2], [0.0f64; 2]);
-    rows(rng, x.len(), |idx| {
-        for pair in idx.chunks(2) {
-            for (k, i) in pair.iter().enumerate() {
-                let v = x[*i as usize];
-                s[k] += v;
-                q[k] += v * v;
-            }
-        }
-    });
-    (s[0] + s[1], q[0] + q[1])
+    let zero = [0.0; LANES];
+    rows(rng, x.len(), Sums::<true> { x, s: zero, q: zero }).totals()
 }
 
 #[cfg(test)]
@@ -147,11 +213,9 @@ mod tests {
         for i in 0..reps {
             let mut rng = replicate_stream(5, i);
             let mut drawn = 0;
-            rows(&mut rng, n, |idx| {
-                drawn += idx.len();
-                for r in idx {
-                    counts[*r as usize] += 1;
-                }
+            let _ = rows(&mut rng, n, |r, weight, _| {
+                drawn += weight as usize;
+                counts[r] += weight as u32;
             });
             assert_eq!(drawn, n);
         }

@@ -14,8 +14,8 @@ use rand::SeedableRng;
 use rand_chacha::ChaCha8Rng;
 
 /// Name of the generator and of how its words become draws, recorded in the reproducibility
-/// token. v2: bounded integers by Lemire's multiply-shift and rows drawn chunk by chunk
-/// ([`crate::engine::draw`]), and the exact `iid` shortcuts ([`crate::engine::statistic::shortcut`]); a v1
+/// token. v2: bounded integers by Lemire's multiply-shift (a resample's rows from 16-bit
+/// halves of words, chunk by chunk; [`crate::engine::draw`]), and the exact `iid` shortcuts ([`crate::engine::statistic::shortcut`]); a v1
 /// token is refused rather than replayed to different numbers.
 pub const GENERATOR: &str = "chacha8-stream-per-replicate-v2";
 

@@ -80,11 +80,7 @@ pub fn draw_within(size: f64, outer: &[f64], within: &Within, rng: &mut ChaCha8R
 /// n rows drawn uniformly with replacement (by [`draw::rows`], chunk by chunk): `w[i]` becomes
 /// how often row i was drawn. `w` must hold n zeros.
 pub fn draw_rows(rng: &mut ChaCha8Rng, w: &mut [f64]) {
-    draw::rows(rng, w.len(), |idx| {
-        for i in idx {
-            w[*i as usize] += 1.0;
-        }
-    });
+    let _ = draw::rows(rng, w.len(), |i, weight, _| w[i] += weight);
 }
 
 /// A multinomial draw of `size` items over units with masses `mass` (total `total`), by
