@@ -13,4 +13,5 @@ mod coverage;
 mod details;
 mod properties;
 mod reference;
+mod shortcuts;
 mod verdicts;
