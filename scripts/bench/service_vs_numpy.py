@@ -51,8 +51,8 @@ def post(url, route, body):
     return time.perf_counter() - t
 
 
-def interval(x, statistic, b, scheme=None):
-    body = {"data": x, "statistic": statistic, "resamples": b, "seed": 1, "methods": ["percentile"],
+def interval(x, statistic, b, scheme=None, methods=("percentile",)):
+    body = {"data": x, "statistic": statistic, "resamples": b, "seed": 1, "methods": list(methods),
             "time_limit_ms": 600000}
     if scheme:
         body["scheme"] = scheme
@@ -118,8 +118,7 @@ def main():
             rows.append((f"{name}, n = 10 000, B = 10 000, percentile", "numpy ÷ bandsaw", n / s))
         big = rng.standard_normal(1_000_000).tolist()
         small = x.tolist()
-        # The 10⁶-row median takes about a minute today: run once, whatever `repeats` says.
-        t_big = best(lambda: post(url, "/v1/interval", interval(big, "median", 10_000)), 1)
+        t_big = best(lambda: post(url, "/v1/interval", interval(big, "median", 10_000)), repeats)
         t_small = best(lambda: post(url, "/v1/interval", interval(small, "median", 10_000)), repeats)
         rows.append(("median at n = 10⁶ against n = 10⁴, B = 10 000", "bandsaw ÷ bandsaw", t_big / t_small))
         series = np.zeros(100_000)
@@ -135,6 +134,11 @@ def main():
         s, n = alternate(lambda: post(url, "/v1/batch", batch),
                          lambda: timed(lambda: [numpy_iid(p, np.mean, 2000, rng) for p in page]), repeats)
         rows.append(("200 series of n = 2000 in one batch, mean, B = 2000", "numpy ÷ bandsaw", n / s))
+        wide = rng.standard_normal(100_000).tolist()
+        both, plain = alternate(
+            lambda: post(url, "/v1/interval", interval(wide, "mean", 2000, methods=("percentile", "bca"))),
+            lambda: post(url, "/v1/interval", interval(wide, "mean", 2000)), repeats)
+        rows.append(("BCa on top of percentile, mean, n = 100 000, B = 2000", "bandsaw ÷ bandsaw", both / plain))
     finally:
         proc.terminate()
         proc.wait()

@@ -112,7 +112,7 @@ impl<F: FnMut(usize, f64, usize)> Take for F {
 /// 10⁴ rows), which keeps every row exactly uniform. The rows are the first `count` accepted
 /// halves; a half left over in the last word is not used.
 #[inline]
-fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u64, mut take: T) -> T {
+pub fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u64, mut take: T) -> T {
     debug_assert!(len > 0 && len <= 1 << 16);
     let range = len as u32;
     let threshold = ((1u32 << 16) - range) % range;

@@ -163,7 +163,11 @@ fn paired(job: &Job, baseline: &Resampled, candidate: &Resampled, contrast: Cont
     let ((b, eb), (c, ec)) = arms(job, baseline, candidate)?;
     let (nb, nc) = (baseline.sample.rows(), candidate.sample.rows());
     // The refusal points at the sample to fix: an aggregated one, else the candidate.
-    let which = if b.estimator.has_rows() { Which::Candidate } else { Which::Baseline };
+    let which = if b.estimator.has_rows() {
+        Which::Candidate
+    } else {
+        Which::Baseline
+    };
     let pair = Pair::new([(b.estimator, &baseline.sample), (c.estimator, &candidate.sample)], contrast).ok_or_else(|| {
         RunError::data(
             which,

@@ -6,10 +6,10 @@
 
 use rand_chacha::ChaCha8Rng;
 
+use crate::engine::data::{ColumnLayout, Sample};
 use crate::engine::executor::Replicate;
 use crate::engine::job::Contrast;
 use crate::engine::rng::sample_stream;
-use crate::engine::data::{ColumnLayout, Sample};
 use crate::engine::scheme::{Resampler, Within};
 use crate::engine::statistic::shortcut::Shortcut;
 use crate::engine::statistic::{Estimator, Scratch, Units, Weighted};

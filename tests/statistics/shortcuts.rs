@@ -166,7 +166,7 @@ enum Draws {
     /// path on the same seed repeats itself exactly).
     Own,
     /// As the plain path does, so that the replicates are the same bit for bit: at most 24 raw
-    /// rows, which `Order::by_drawing` draws one by one with `draw::below` as `draw::rows`
+    /// rows, which `Order::by_drawing` draws one by one by `draw::within` as `draw::rows`
     /// does; and a share of two units, where the plain path's one conditional
     /// binomial (rand_distr flips p > ½ to 1 − p and returns n minus the draw) is the
     /// shortcut's.

@@ -17,9 +17,9 @@
 
 use rand_chacha::ChaCha8Rng;
 
+use super::{interpolate, weighted_mean};
 use crate::engine::data::ColumnLayout;
 use crate::engine::draw;
-use super::{interpolate, weighted_mean};
 
 /// At most this many draws left within a range of units, they are drawn one by one and sorted
 /// instead of split further: cheaper than the binomial draws that splitting would take.
@@ -194,16 +194,25 @@ impl Order {
         self.select(rng, mid, hi, m - left, &shifted[..ranks.len() - split], out_right);
     }
 
-    /// The same by drawing the `m` draws' units one by one (by mass) and sorting them.
+    /// The same by drawing the `m` draws' units one by one (by mass) and sorting them. Raw rows
+    /// are drawn as [`draw::rows`] draws them, so that a sample of at most [`DRAW_BELOW`] rows
+    /// has exactly the plain path's resamples.
     fn by_drawing(&self, rng: &mut ChaCha8Rng, lo: usize, hi: usize, m: u64, ranks: &[u64], out: &mut [usize]) {
         let mut drawn = [0usize; DRAW_BELOW as usize];
-        let drawn = &mut drawn[..m as usize];
-        for d in drawn.iter_mut() {
-            *d = match &self.cum {
-                None => lo + draw::index_below(rng, hi - lo),
-                Some(cum) => unit_at(cum, lo, hi, rng),
-            };
+        let mut k = 0;
+        match &self.cum {
+            None if hi - lo <= draw::CHUNK_ROWS => {
+                let _ = draw::within(rng, lo, hi - lo, m, |row, weight, _| {
+                    if weight > 0.0 {
+                        drawn[k] = row;
+                        k += 1;
+                    }
+                });
+            }
+            None => drawn[..m as usize].fill_with(|| lo + draw::index_below(rng, hi - lo)),
+            Some(cum) => drawn[..m as usize].fill_with(|| unit_at(cum, lo, hi, rng)),
         }
+        let drawn = &mut drawn[..m as usize];
         drawn.sort_unstable();
         for (o, r) in out.iter_mut().zip(ranks) {
             *o = drawn[*r as usize];
