@@ -21,6 +21,7 @@
 //! else of the crate.
 
 pub mod api;
+pub mod bench;
 pub mod check;
 pub mod cli;
 pub mod config;
