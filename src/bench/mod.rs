@@ -1,7 +1,27 @@
-//! Benchmark helpers: the data the engine is timed on.
+//! `bandsaw bench`: what this machine can do, for capacity planning. It times real engine jobs
+//! in-process and prints four things:
+//!
+//! 1. the ceiling: how many bounded draws per second one thread takes from the generator
+//!    ([`crate::engine::draw::below`] over ChaCha8 replicate streams), the rate no row-drawing
+//!    kernel can beat;
+//! 2. each kernel on one thread: row-draws per second and that rate as a share of the ceiling
+//!    (for the order statistics, which draw no rows, resamples per second);
+//! 3. scaling: the same job on 1, 2, 4, … threads up to all logical CPUs, as speed-ups;
+//! 4. capacity: for common jobs, the most resamples that fit in one second on all threads,
+//!    extrapolated from timed runs.
+//!
+//! Nothing here asserts a speed: the numbers describe the machine they were taken on.
+//! `--format json` gives the same numbers for scripts.
 
+pub mod jobs;
+pub mod measure;
+pub mod report;
+
+use clap::{Args, ValueEnum};
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
+
+use crate::config::Threads;
 
 /// Seed of the benchmark's data, so that every run times the same values.
 pub const DATA_SEED: u64 = 12345;
@@ -23,4 +43,93 @@ pub fn standard_normal(n: usize, seed: u64) -> Vec<f64> {
     }
     out.truncate(n);
     out
+}
+
+/// The report's form.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Format {
+    /// Tables for a person.
+    Text,
+    /// The same numbers as one JSON document, for scripts.
+    Json,
+}
+
+/// The flags of `bandsaw bench`.
+#[derive(Debug, Clone, Args)]
+pub struct BenchArgs {
+    /// A much shorter run (for tests and CI): the same jobs, timed for a few milliseconds each,
+    /// so the numbers are rougher.
+    #[arg(long)]
+    pub quick: bool,
+    /// Target time of each measurement, in seconds (ignored with --quick).
+    #[arg(long, default_value_t = 0.5, value_parser = positive_seconds)]
+    pub seconds: f64,
+    /// The most threads to measure on (0: one per logical CPU); scaling stops and capacity is
+    /// given at this count.
+    #[arg(long, env = "BANDSAW_THREADS", default_value_t = 0)]
+    pub threads: usize,
+    /// text or json.
+    #[arg(long, value_enum, default_value_t = Format::Text)]
+    pub format: Format,
+}
+
+/// Seconds per measurement under `--quick`: long enough to time a few resamples of every job,
+/// short enough that the whole run stays within a couple of seconds.
+const QUICK_SECONDS: f64 = 0.01;
+
+fn positive_seconds(s: &str) -> Result<f64, String> {
+    match s.parse::<f64>() {
+        Ok(v) if v.is_finite() && v > 0.0 && v <= 600.0 => Ok(v),
+        _ => Err(format!("must be a number of seconds above 0 and at most 600, got {s:?}")),
+    }
+}
+
+/// What one run of the benchmark is asked to do, resolved from the flags.
+#[derive(Debug, Clone, Copy)]
+pub struct Settings {
+    /// Logical CPUs of the machine.
+    pub logical_cpus: usize,
+    /// The most threads measured on.
+    pub threads: usize,
+    /// Target seconds of each measurement.
+    pub seconds: f64,
+    pub quick: bool,
+}
+
+impl Settings {
+    /// The settings the flags ask for.
+    pub fn from_args(args: &BenchArgs) -> Settings {
+        Settings {
+            logical_cpus: std::thread::available_parallelism().map_or(1, |n| n.get()),
+            threads: Threads { threads: args.threads }.count(),
+            seconds: if args.quick { QUICK_SECONDS } else { args.seconds },
+            quick: args.quick,
+        }
+    }
+}
+
+/// `bandsaw bench`: measure, then print the report. Returns the process exit status (0, or 2
+/// when a job could not run or the report could not be written).
+pub fn run(args: &BenchArgs) -> i32 {
+    let settings = Settings::from_args(args);
+    let report = match measure::everything(&settings) {
+        Ok(r) => r,
+        Err(e) => {
+            eprintln!("bandsaw bench: {e}");
+            return 2;
+        }
+    };
+    let text = match args.format {
+        Format::Text => report::text(&report),
+        Format::Json => serde_json::to_string_pretty(&report).expect("the report is JSON") + "\n",
+    };
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Ok(()) => 0,
+        Err(e) => {
+            eprintln!("bandsaw bench: cannot write the report: {e}");
+            2
+        }
+    }
 }
