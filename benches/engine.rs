@@ -15,15 +15,16 @@
 //! with the percentile interval's `lower`/`upper` endpoints for a sanity check.
 //!
 //! Data: `n` standard normal values, drawn once outside the timed region by Box–Muller over a
-//! fixed-seed ChaCha8 stream. They are not numpy's values (numpy has its own generator), so
-//! endpoints agree with the baseline only statistically: for the mean, both intervals are
-//! about `±1.96/sqrt(n)` wide.
+//! fixed-seed ChaCha8 stream (`bandsaw::bench::standard_normal`, shared with `bandsaw bench`).
+//! They are not numpy's values (numpy has its own generator), so endpoints agree with the
+//! baseline only statistically: for the mean, both intervals are about `±1.96/sqrt(n)` wide.
 //!
 //! Repeat `r` uses seed `1000 + r`, like the numpy baseline. Cargo runs bench targets with an
 //! extra `--bench` argument; arguments starting with `--` are ignored.
 
 use std::time::Instant;
 
+use bandsaw::bench::standard_normal;
 use bandsaw::engine::data::Sample;
 use bandsaw::engine::driver;
 use bandsaw::engine::executor::Budget;
@@ -31,29 +32,9 @@ use bandsaw::engine::interval::{Level, Method};
 use bandsaw::engine::job::{Job, Resampled, Samples};
 use bandsaw::engine::plan::Resamples;
 use bandsaw::engine::statistic::StatisticSpec;
-use rand::{Rng, SeedableRng};
-use rand_chacha::ChaCha8Rng;
 
 /// Seed of the data (the numpy baseline uses 12345 for its own generator too).
 const DATA_SEED: u64 = 12345;
-
-/// `n` standard normal values by the Box–Muller transform (Box, G. E. P. & Muller, M. E.
-/// (1958), Ann. Math. Statist. 29(2)), both values of each pair used.
-fn standard_normal(n: usize, seed: u64) -> Vec<f64> {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    let mut out = Vec::with_capacity(n + 1);
-    while out.len() < n {
-        // u1 in (0, 1] so that ln(u1) is finite; u2 in [0, 1).
-        let u1: f64 = 1.0 - rng.random::<f64>();
-        let u2: f64 = rng.random::<f64>();
-        let r = (-2.0 * u1.ln()).sqrt();
-        let theta = std::f64::consts::TAU * u2;
-        out.push(r * theta.cos());
-        out.push(r * theta.sin());
-    }
-    out.truncate(n);
-    out
-}
 
 fn usage(msg: &str) -> ! {
     eprintln!("engine bench: {msg}");

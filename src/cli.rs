@@ -1,6 +1,7 @@
 //! The command line: `bandsaw serve` (the default), `bandsaw interval`, which runs the same
 //! engine in-process on a request file, `bandsaw check`, which decides a benchmark suite's
-//! regressions from files, and `bandsaw openapi`, which prints the API's OpenAPI document. Each command offers only the flags that apply to it.
+//! regressions from files, `bandsaw bench`, which measures what this machine can compute, and
+//! `bandsaw openapi`, which prints the API's OpenAPI document. Each command offers only the flags that apply to it.
 
 use std::io::Read;
 use std::sync::atomic::AtomicBool;
@@ -38,6 +39,10 @@ pub enum Command {
     /// Exit status: 0 no regression, 1 a regression, 2 (nothing regressed, but) bad input or
     /// usage, a benchmark refused or a server not reached, 3 inconclusive under --strict.
     Check(Box<crate::check::CheckArgs>),
+    /// Measure this machine for capacity planning: the generator's draw rate, each kernel's
+    /// rate on one thread, scaling over threads, and how many resamples of common jobs fit in
+    /// one second on all threads.
+    Bench(crate::bench::BenchArgs),
     /// Print the OpenAPI 3.1 document of the HTTP API (the same bytes as GET /openapi.json
     /// and openapi/openapi.json).
     Openapi,

@@ -15,12 +15,13 @@
 //!   catalogue, the replay token and the bounded compute pool.
 //! - [`server`]: startup (`Application::build`, which reports the bound address) and graceful
 //!   shutdown; [`config`] the limits and flags; [`telemetry`] logs and Prometheus metrics.
-//! - [`cli`]: the command line.
+//! - [`cli`]: the command line; [`check`] and [`bench`] its larger commands.
 //!
 //! Dependencies point one way: `api` and `cli` use `engine` and `config`; `engine` uses nothing
 //! else of the crate.
 
 pub mod api;
+pub mod bench;
 pub mod check;
 pub mod cli;
 pub mod config;

@@ -9,6 +9,7 @@ fn main() {
     match args.command {
         Some(Command::Interval(a)) => std::process::exit(cli::interval(&a)),
         Some(Command::Check(a)) => std::process::exit(bandsaw::check::run(&a)),
+        Some(Command::Bench(a)) => std::process::exit(bandsaw::bench::run(&a)),
         Some(Command::Openapi) => std::process::exit(cli::openapi()),
         Some(Command::Serve(config)) => serve(config),
         None => serve(args.serve),

@@ -11,8 +11,11 @@
 //! - [`process`]: the binary: shutdown, logs, command-line help.
 //! - [`check`]: `bandsaw check` as a CI job runs it: input forms, reports, exit statuses, and
 //!   the same report in-process and from a server.
+//! - [`bench`]: `bandsaw bench --quick`, text and JSON: every part of the report there and
+//!   every rate a rate (no speed is asserted).
 //! - [`golden`]: full responses of varied requests, pinned bit for bit in `tests/golden/`.
 
+mod bench;
 mod bins;
 mod check;
 mod common;

@@ -1,0 +1,163 @@
+//! The jobs the benchmark times, written once: the kernels of one thread, the job of the
+//! scaling run, and the common jobs of the capacity table.
+
+use serde_json::json;
+
+use crate::engine::data::Sample;
+use crate::engine::interval::{Level, Method};
+use crate::engine::job::{Job, Resampled, Samples};
+use crate::engine::plan::Resamples;
+use crate::engine::scheme::{BlockLength, SchemeSpec};
+use crate::engine::statistic::StatisticSpec;
+
+/// Seed of every timed job's streams (fixed, so that runs of the same job draw the same rows).
+const JOB_SEED: u64 = 1000;
+
+/// The most rows of any job here; the data are drawn once at this size and every job reads a
+/// prefix of them.
+pub const MOST_ROWS: usize = 1_000_000;
+
+/// What a job's data are.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Values {
+    /// Standard normal values.
+    Normal,
+    /// 1 where the standard normal value is above 0, else 0 (for a proportion).
+    Indicator,
+}
+
+/// How a kernel computes a replicate, which decides what its rate is counted in.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Path {
+    /// The mean's shortcut: the resample's rows drawn and their values summed as they come.
+    Summed,
+    /// The plain path of a statistic without a shortcut: the resample's weights drawn, then
+    /// the weighted statistic evaluated.
+    Weighted,
+    /// The order-statistic shortcut: O(log n) binomial draws, no rows drawn.
+    Order,
+}
+
+impl Path {
+    /// True when a replicate draws its n rows one by one, so that row-draws per second can be
+    /// held against the generator's ceiling.
+    pub fn draws_rows(self) -> bool {
+        !matches!(self, Path::Order)
+    }
+
+    /// A few words on the path, for the report.
+    pub fn describe(self) -> &'static str {
+        match self {
+            Path::Summed => "rows summed as drawn",
+            Path::Weighted => "weights, then weighted statistic",
+            Path::Order => "binomial splits, O(log n)",
+        }
+    }
+}
+
+/// One timed job: its statistic, its data and how it is resampled.
+#[derive(Debug, Clone)]
+pub struct Spec {
+    /// The statistic's wire name (the job's name in the report).
+    pub statistic: &'static str,
+    /// Rows of data.
+    pub n: usize,
+    pub values: Values,
+    /// The stationary bootstrap's mean block length, for a block job; `None` for `iid`.
+    pub mean_block: Option<f64>,
+    pub methods: &'static [Method],
+}
+
+const PERCENTILE: &[Method] = &[Method::Percentile];
+const PERCENTILE_BCA: &[Method] = &[Method::Percentile, Method::Bca];
+
+impl Spec {
+    /// An `iid` job with a 95 % percentile interval, on standard normal values.
+    const fn iid(statistic: &'static str, n: usize) -> Spec {
+        Spec {
+            statistic,
+            n,
+            values: Values::Normal,
+            mean_block: None,
+            methods: PERCENTILE,
+        }
+    }
+
+    /// The scheme's wire name.
+    pub fn scheme(&self) -> &'static str {
+        if self.mean_block.is_some() {
+            "stationary_block"
+        } else {
+            "iid"
+        }
+    }
+
+    /// The methods' wire names.
+    pub fn method_names(&self) -> Vec<&'static str> {
+        self.methods.iter().map(|m| m.name()).collect()
+    }
+
+    /// The job over the first `n` of `normal` (at least [`Spec::n`] values), drawing `b`
+    /// resamples. Its limits are lifted, since the benchmark sizes its own runs.
+    pub fn job(&self, normal: &[f64], b: u64) -> Job {
+        let rows = &normal[..self.n];
+        let x = match self.values {
+            Values::Normal => rows.to_vec(),
+            Values::Indicator => rows.iter().map(|v| f64::from(u8::from(*v > 0.0))).collect(),
+        };
+        let sample = Sample::column(x).expect("finite data");
+        let scheme = match self.mean_block {
+            Some(l) => SchemeSpec::StationaryBlock {
+                mean_block_length: BlockLength::Rows(l),
+            },
+            None => SchemeSpec::Iid {},
+        };
+        let statistic: StatisticSpec =
+            serde_json::from_value(json!({ "name": self.statistic })).expect("a statistic of the catalogue");
+        let mut job = Job::new(Samples::One(Resampled { sample, scheme }), statistic, JOB_SEED);
+        job.resamples = Resamples::Fixed(b);
+        job.methods = self.methods.to_vec();
+        job.levels = vec![Level::new(0.95).expect("a level")];
+        job.max_resamples = u64::MAX;
+        job.max_work = f64::MAX;
+        job
+    }
+}
+
+/// The kernels timed on one thread, each with how it computes a replicate.
+pub fn kernels() -> Vec<(Spec, Path)> {
+    vec![
+        (Spec::iid("mean", 10_000), Path::Summed),
+        (Spec::iid("mean", MOST_ROWS), Path::Summed),
+        (Spec::iid("variance", 10_000), Path::Weighted),
+        (Spec::iid("trimmed_mean", 10_000), Path::Weighted),
+        (Spec::iid("median", 10_000), Path::Order),
+        (Spec::iid("median", MOST_ROWS), Path::Order),
+    ]
+}
+
+/// The job of the scaling run: the mean of 10 000 values.
+pub fn scaling() -> Spec {
+    Spec::iid("mean", 10_000)
+}
+
+/// The common jobs of the capacity table.
+pub fn capacity() -> Vec<Spec> {
+    vec![
+        Spec::iid("mean", 10_000),
+        Spec::iid("median", 10_000),
+        Spec::iid("median", MOST_ROWS),
+        Spec {
+            values: Values::Indicator,
+            ..Spec::iid("proportion", 10_000)
+        },
+        Spec {
+            mean_block: Some(50.0),
+            ..Spec::iid("mean", 100_000)
+        },
+        Spec {
+            methods: PERCENTILE_BCA,
+            ..Spec::iid("mean", 10_000)
+        },
+    ]
+}
