@@ -14,7 +14,7 @@ use rayon::ThreadPool;
 use super::jobs::{self, Path, Spec, MOST_ROWS};
 use super::report::{Capacity, CapacityRow, Ceiling, Kernel, Machine, Report, Scaling, ScalingRun, Timing};
 use super::{standard_normal, Settings, DATA_SEED};
-use crate::engine::draw::below;
+use crate::engine::draw::{rows, Take};
 use crate::engine::driver::{self, Prepared};
 use crate::engine::executor::Budget;
 use crate::engine::plan::Resamples;
@@ -62,6 +62,17 @@ pub fn everything(settings: &Settings) -> Result<Report, String> {
     })
 }
 
+/// The cheapest consumer of draws: every candidate row xor-ed in (moved into the drawing loop,
+/// so it stays in a register as a kernel's sums do).
+struct Fold(u64);
+
+impl Take for Fold {
+    #[inline]
+    fn take(&mut self, row: usize, _: f64, _: usize) {
+        self.0 ^= row as u64;
+    }
+}
+
 /// A rayon pool of `threads` threads.
 fn pool(threads: usize) -> Result<ThreadPool, String> {
     rayon::ThreadPoolBuilder::new()
@@ -70,26 +81,25 @@ fn pool(threads: usize) -> Result<ThreadPool, String> {
         .map_err(|e| format!("cannot start {threads} compute threads: {e}"))
 }
 
-/// Bounded draws below [`CEILING_RANGE`] on this thread for about `seconds`, a replicate's
-/// worth from each stream in turn as the engine draws them. Every value is folded into an
-/// accumulator that goes through `black_box`, so that no draw can be optimised away.
+/// Rows drawn below [`CEILING_RANGE`] on this thread for about `seconds`, as the kernels draw
+/// them ([`rows`]: Lemire's bounded draw on half-words), a replicate's worth from each stream
+/// in turn, with nothing done with them but folding every candidate into an accumulator that
+/// goes through `black_box`, so that no draw can be optimised away.
 pub fn ceiling(seconds: f64) -> Ceiling {
     let per_stream = u64::from(CEILING_RANGE);
-    let mut acc = 0u64;
+    let mut acc = Fold(0);
     let mut streams = 0u64;
     let started = Instant::now();
     loop {
         let mut rng = replicate_stream(DATA_SEED, streams);
-        for _ in 0..per_stream {
-            acc = acc.wrapping_add(u64::from(below(&mut rng, CEILING_RANGE)));
-        }
+        acc = rows(&mut rng, CEILING_RANGE as usize, acc);
         streams += 1;
         if started.elapsed().as_secs_f64() >= seconds {
             break;
         }
     }
     let elapsed = started.elapsed().as_secs_f64();
-    black_box(acc);
+    black_box(acc.0);
     let draws = streams * per_stream;
     Ceiling {
         range: CEILING_RANGE,

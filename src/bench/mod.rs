@@ -2,8 +2,8 @@
 //! in-process and prints four things:
 //!
 //! 1. the ceiling: how many bounded draws per second one thread takes from the generator
-//!    ([`crate::engine::draw::below`] over ChaCha8 replicate streams), the rate no row-drawing
-//!    kernel can beat;
+//!    ([`crate::engine::draw::rows`] over ChaCha8 replicate streams, with nothing done with
+//!    the rows), the rate no row-drawing kernel can beat;
 //! 2. each kernel on one thread: row-draws per second and that rate as a share of the ceiling
 //!    (for the order statistics, which draw no rows, resamples per second);
 //! 3. scaling: the same job on 1, 2, 4, … threads up to all logical CPUs, as speed-ups;
