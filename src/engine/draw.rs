@@ -112,31 +112,49 @@ impl<F: FnMut(usize, f64, usize)> Take for F {
 /// 10⁴ rows), which keeps every row exactly uniform. The rows are the first `count` accepted
 /// halves; a half left over in the last word is not used.
 #[inline]
-pub fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u64, mut take: T) -> T {
+pub fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u64, take: T) -> T {
     debug_assert!(len > 0 && len <= 1 << 16);
     let range = len as u32;
     let threshold = ((1u32 << 16) - range) % range;
+    // A power-of-two range (every full chunk) rejects nothing: its loop needs no weights.
+    let (take, left) = if threshold == 0 {
+        pairs::<T, false>(rng, start, range, 0, count, take)
+    } else {
+        pairs::<T, true>(rng, start, range, threshold, count, take)
+    };
+    last(rng, start, range, threshold, left, take)
+}
+
+/// The draws of [`within`] while two rows or more are wanted: both halves of two words while
+/// four or more are, then of one word, with no branch on the rejection and four lanes for a
+/// consumer's sums. Returns the consumer and the rows still wanted (0 or 1).
+#[inline]
+fn pairs<T: Take, const REJECTS: bool>(rng: &mut ChaCha8Rng, start: usize, range: u32, threshold: u32, count: u64, mut take: T) -> (T, u64) {
     let mut left = count;
-    // Both halves of two words while four rows or more are wanted, then of one word while two
-    // are: no branch on the rejection, and four lanes for a consumer's sums.
+    let candidate = |take: &mut T, half: u32, lane: usize, left: &mut u64| {
+        let m = half * range;
+        let ok = if REJECTS { accepted(m, threshold) } else { 1 };
+        take.take(start + (m >> 16) as usize, if REJECTS { weight(ok) } else { 1.0 }, lane);
+        *left -= u64::from(ok);
+    };
     while left >= 4 {
         let (a, b) = (rng.next_u32(), rng.next_u32());
         for (lane, half) in [a & 0xffff, a >> 16, b & 0xffff, b >> 16].into_iter().enumerate() {
-            let m = half * range;
-            let ok = (m & 0xffff) >= threshold;
-            take.take(start + (m >> 16) as usize, f64::from(u8::from(ok)), lane);
-            left -= u64::from(ok);
+            candidate(&mut take, half, lane, &mut left);
         }
     }
     while left >= 2 {
         let word = rng.next_u32();
         for (lane, half) in [word & 0xffff, word >> 16].into_iter().enumerate() {
-            let m = half * range;
-            let ok = (m & 0xffff) >= threshold;
-            take.take(start + (m >> 16) as usize, f64::from(u8::from(ok)), lane);
-            left -= u64::from(ok);
+            candidate(&mut take, half, lane, &mut left);
         }
     }
+    (take, left)
+}
+
+/// The last row of [`within`], when one is still wanted.
+#[inline]
+fn last<T: Take>(rng: &mut ChaCha8Rng, start: usize, range: u32, threshold: u32, mut left: u64, mut take: T) -> T {
     // The last row: halves one at a time until one is accepted.
     while left == 1 {
         let word = rng.next_u32();
@@ -184,6 +202,23 @@ impl<const SQUARES: bool> Sums<'_, SQUARES> {
         let add = |a: &[f64; LANES]| (a[0] + a[1]) + (a[2] + a[3]);
         (add(&self.s), add(&self.q))
     }
+}
+
+/// 1 when the candidate `m` (a half-word times the range) is accepted, its low half at or above
+/// `threshold`, else 0; by the sign of a difference of two numbers below 2^16, not a compare.
+#[inline]
+fn accepted(m: u32, threshold: u32) -> u32 {
+    1 - ((m & 0xffff).wrapping_sub(threshold) >> 31)
+}
+
+/// 1.0 for 1 and 0.0 for 0, built from the bits of 1.0 by an integer multiplication. The
+/// compiler sees through any arithmetic on a 0/1 value and emits a branch, which a rejection
+/// (~8 % of candidates for 10⁴ rows) mispredicts at the cost of a third of a draw; hiding the
+/// value from it (`black_box`, one store and load) keeps the weight branch-free. Per-thread
+/// CPU time of the mean at 10⁴ rows: 2.3–2.5 ns per row-draw with the branch, 1.8 without.
+#[inline]
+fn weight(ok: u32) -> f64 {
+    f64::from_bits(u64::from(std::hint::black_box(ok)) * 1f64.to_bits())
 }
 
 /// The sum of `x` over an `iid` resample's rows (drawn by [`rows`]).
