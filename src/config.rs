@@ -20,13 +20,14 @@ pub const QUEUE_PER_THREAD: usize = 4;
 #[derive(Debug, Clone, Args)]
 pub struct Limits {
     /// Most rows (or distinct values) in one sample.
-    #[arg(long, env = "BANDSAW_MAX_ROWS", default_value_t = DEFAULT_MAX_ROWS)]
+    // The engine numbers rows in 32 bits.
+    #[arg(long, env = "BANDSAW_MAX_ROWS", default_value_t = DEFAULT_MAX_ROWS, value_parser = clap::value_parser!(u64).range(1..=u64::from(u32::MAX)))]
     pub max_rows: u64,
     /// Most resamples in one job (also the limit on distinct resamples for "exact").
     #[arg(long, env = "BANDSAW_MAX_RESAMPLES", default_value_t = DEFAULT_MAX_RESAMPLES)]
     pub max_resamples: u64,
-    /// Most row-draws (rows × resamples × the statistic's relative cost) in one job (or, served,
-    /// in one batch).
+    /// Most row-draws (rows × resamples × the statistic's relative cost, or a shortcut's own cost
+    /// per resample) in one job (or, served, in one batch).
     #[arg(long, env = "BANDSAW_WORK_LIMIT", default_value_t = DEFAULT_MAX_WORK)]
     pub work_limit: f64,
     /// Time limit of a request that sets none, in milliseconds.

@@ -68,7 +68,8 @@ pub struct LimitsEntry {
     pub max_body_bytes: usize,
     pub max_rows: u64,
     pub max_resamples: u64,
-    /// Most row-draws (rows × resamples × the statistic's relative cost) per job, or per batch.
+    /// Most row-draws (rows × resamples × the statistic's relative cost, or a shortcut's own cost
+    /// per resample) per job, or per batch.
     pub work_limit: f64,
     pub default_time_limit_ms: u64,
     pub max_time_limit_ms: u64,

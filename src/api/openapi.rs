@@ -451,7 +451,7 @@ problem_responses! {
     UnsupportedMediaType: 415, "`/problems/unsupported-media-type`: the body is not sent as `application/json` (or another `application/*+json` type).",
         [Problem::unsupported_media_type()],
         retry_after = false, www_authenticate = false;
-    Unprocessable: 422, "`/problems/invalid-request`: fields are missing, out of range, of the wrong type or inconsistent, each named in `errors` with a JSON Pointer into the request; or `/problems/work-limit`: the estimated work (rows × resamples × the statistic's cost) exceeds the server's limit, known before any work starts.",
+    Unprocessable: 422, "`/problems/invalid-request`: fields are missing, out of range, of the wrong type or inconsistent, each named in `errors` with a JSON Pointer into the request; or `/problems/work-limit`: the estimated work (rows × resamples × the statistic's cost; under `iid` a mean, share or order statistic costs its shortcut's own amount per resample) exceeds the server's limit, known before any work starts.",
         [invalid_example(), Problem::work_limit(4.2e9, 2e9)],
         retry_after = false, www_authenticate = false;
     Internal: 500, "`/problems/internal`: the computation failed unexpectedly; the server serves on.",

@@ -37,8 +37,9 @@ fn per_resample(job: &Job, target: &Target) -> f64 {
         return target.estimators().into_iter().map(plain).sum();
     }
     let studentized = job.wants(Method::Studentized);
+    let analytic = job.analytic_se_applies();
     arms.iter()
-        .map(|a| match a.shortcut(studentized) {
+        .map(|a| match a.shortcut(studentized, analytic) {
             Some((s, c)) => s.cost(c.x.len()),
             None => plain(&a.estimator),
         })

@@ -39,10 +39,11 @@ impl Arm {
         self.estimator.units().base.len()
     }
 
-    /// The shortcut and the column it reads, when it gives all that a replicate needs (a
-    /// standard error too, for `studentized`).
-    pub fn shortcut(&self, studentized: bool) -> Option<(&Shortcut, &ColumnLayout)> {
-        let s = self.shortcut.as_ref().filter(|s| !studentized || s.gives_se())?;
+    /// The shortcut and the column it reads, when it gives all that a replicate needs: for
+    /// `studentized`, a standard error too, which a shortcut gives analytically, so only where
+    /// `analytic` standard errors apply (else the nested bootstrap needs the resample itself).
+    pub fn shortcut(&self, studentized: bool, analytic: bool) -> Option<(&Shortcut, &ColumnLayout)> {
+        let s = self.shortcut.as_ref().filter(|s| !studentized || (analytic && s.gives_se()))?;
         Some((s, self.estimator.column()?))
     }
 }
@@ -221,7 +222,7 @@ impl Kernel<'_> {
 
     /// Replicate `i` of one sample: by its shortcut where it has one, else by the plain path.
     fn arm_replicate(&self, arm: &Arm, i: u64, wk: &mut Worker, stop: &dyn Fn() -> bool) -> Option<(f64, f64, f64)> {
-        match arm.shortcut(self.studentized) {
+        match arm.shortcut(self.studentized, self.analytic) {
             Some((shortcut, column)) => {
                 let mut rng = sample_stream(self.seed, arm.stream, i);
                 let (value, se) = shortcut.replicate(column, &mut rng, self.studentized);

@@ -60,8 +60,9 @@ fn check_kernels(report: &Value) {
         if k["draws_rows"].as_bool().expect("draws_rows") {
             let rows = positive(k, "/row_draws_per_second");
             assert!((rows / (per_second * whole(k, "/n") as f64) - 1.0).abs() < 1e-9, "{k}");
-            let pc = positive(k, "/percent_of_ceiling");
-            assert!(pc < 1000.0, "{k}");
+            // A share of two timings: positive and finite, nothing more (a timed bound could fail
+            // on a loaded machine).
+            positive(k, "/percent_of_ceiling");
         } else {
             // The order statistics draw no rows: no row-draw rate, no share of the ceiling.
             assert!(k["row_draws_per_second"].is_null() && k["percent_of_ceiling"].is_null(), "{k}");

@@ -33,9 +33,9 @@ const BINOMIAL_COST: f64 = 50.0;
 /// How a statistic's replicate is computed without weights.
 #[derive(Debug, Clone)]
 pub enum Shortcut {
-    /// The mean of raw rows, summed from values centred on the sample mean (so that the sum of
-    /// squares for the standard error does not cancel).
-    Mean { centre: f64, centred: Vec<f64> },
+    /// The mean of raw rows, summed from values centred on the sample mean as they are read (so
+    /// that the sum of squares for the standard error does not cancel), without a copy.
+    Mean { centre: f64 },
     /// A share of successes (`successes` of `total`): one binomial draw.
     Share { successes: f64, total: f64 },
     /// Hyndman–Fan definition 7 quantiles at `p`, read from the resample's order statistics; a
@@ -47,20 +47,16 @@ pub enum Shortcut {
 #[derive(Debug, Clone)]
 pub struct Order {
     p: Vec<f64>,
-    /// Cumulative counts through each unit (`cum[j]` = count of units before j), for aggregated
-    /// data; `None` for raw rows, where every unit counts 1.
+    /// Cumulative counts (`cum[j]` = the count of the units before unit j, n + 1 entries), for
+    /// aggregated data; `None` for raw rows, where every unit counts 1.
     cum: Option<Vec<f64>>,
 }
 
 impl Shortcut {
     /// The mean of raw rows.
     pub fn mean(c: &ColumnLayout) -> Option<Shortcut> {
-        c.raw.then(|| {
-            let centre = weighted_mean(&c.x, &c.base);
-            Shortcut::Mean {
-                centre,
-                centred: c.x.iter().map(|v| v - centre).collect(),
-            }
+        c.raw.then(|| Shortcut::Mean {
+            centre: weighted_mean(&c.x, &c.base),
         })
     }
 
@@ -104,12 +100,12 @@ impl Shortcut {
     /// One replicate's value, and its analytic standard error when `se` asks (NaN otherwise).
     pub fn replicate(&self, c: &ColumnLayout, rng: &mut ChaCha8Rng, se: bool) -> (f64, f64) {
         match self {
-            Shortcut::Mean { centre, centred } => {
-                let n = centred.len() as f64;
+            Shortcut::Mean { centre } => {
+                let n = c.x.len() as f64;
                 if !se {
-                    return (centre + draw::resampled_sum(rng, centred) / n, f64::NAN);
+                    return (centre + draw::resampled_sum(rng, &c.x, *centre) / n, f64::NAN);
                 }
-                let (s, q) = draw::resampled_sums(rng, centred);
+                let (s, q) = draw::resampled_sums(rng, &c.x, *centre);
                 let d = s / n;
                 // The plug-in variance of the resample, σ̂²/n as the mean's analytic SE.
                 let var = (q / n - d * d).max(0.0);
