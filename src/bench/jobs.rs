@@ -112,8 +112,7 @@ impl Spec {
             },
             None => SchemeSpec::Iid {},
         };
-        let statistic: StatisticSpec =
-            serde_json::from_value(json!({ "name": self.statistic })).expect("a statistic of the catalogue");
+        let statistic: StatisticSpec = serde_json::from_value(json!({ "name": self.statistic })).expect("a statistic of the catalogue");
         let mut job = Job::new(Samples::One(Resampled { sample, scheme }), statistic, JOB_SEED);
         job.resamples = Resamples::Fixed(b);
         job.methods = self.methods.to_vec();

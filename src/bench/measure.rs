@@ -224,7 +224,10 @@ fn scaling_note(s: &Settings) -> Option<String> {
     if s.threads <= 1 {
         Some("one thread only: nothing to scale".into())
     } else if s.threads > cpus {
-        Some(format!("{} threads on {cpus} logical CPUs: beyond {cpus} the threads take turns", s.threads))
+        Some(format!(
+            "{} threads on {cpus} logical CPUs: beyond {cpus} the threads take turns",
+            s.threads
+        ))
     } else if s.threads < cpus {
         Some(format!("capped at {} of {cpus} logical CPUs by --threads", s.threads))
     } else if cpus == 2 {

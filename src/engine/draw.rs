@@ -34,6 +34,21 @@ pub fn below(rng: &mut ChaCha8Rng, range: u32) -> u32 {
     (m >> 32) as u32
 }
 
+/// A uniform integer in `0..range` (`range` ≥ 1) for ranges beyond 32 bits: the same
+/// multiply-shift with rejection on 64-bit words (a 128-bit product).
+#[inline]
+pub fn below_wide(rng: &mut ChaCha8Rng, range: u64) -> u64 {
+    debug_assert!(range > 0);
+    let mut m = u128::from(rng.next_u64()) * u128::from(range);
+    if (m as u64) < range {
+        let threshold = range.wrapping_neg() % range;
+        while (m as u64) < threshold {
+            m = u128::from(rng.next_u64()) * u128::from(range);
+        }
+    }
+    (m >> 64) as u64
+}
+
 /// A uniform index in `0..len` for a length that fits the row limit (rows are numbered in 32
 /// bits throughout the engine).
 #[inline]
@@ -129,7 +144,14 @@ pub fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u6
 /// four or more are, then of one word, with no branch on the rejection and four lanes for a
 /// consumer's sums. Returns the consumer and the rows still wanted (0 or 1).
 #[inline]
-fn pairs<T: Take, const REJECTS: bool>(rng: &mut ChaCha8Rng, start: usize, range: u32, threshold: u32, count: u64, mut take: T) -> (T, u64) {
+fn pairs<T: Take, const REJECTS: bool>(
+    rng: &mut ChaCha8Rng,
+    start: usize,
+    range: u32,
+    threshold: u32,
+    count: u64,
+    mut take: T,
+) -> (T, u64) {
     let mut left = count;
     let candidate = |take: &mut T, half: u32, lane: usize, left: &mut u64| {
         let m = half * range;
@@ -226,14 +248,35 @@ fn weight(ok: u32) -> f64 {
 /// The sum of `x − centre` over an `iid` resample's rows (drawn by [`rows`]).
 pub fn resampled_sum(rng: &mut ChaCha8Rng, x: &[f64], centre: f64) -> f64 {
     let zero = [0.0; LANES];
-    rows(rng, x.len(), Sums::<false> { x, centre, s: zero, q: zero }).totals().0
+    rows(
+        rng,
+        x.len(),
+        Sums::<false> {
+            x,
+            centre,
+            s: zero,
+            q: zero,
+        },
+    )
+    .totals()
+    .0
 }
 
 /// The sums of `x − centre` and of its square over an `iid` resample's rows, for a mean and its
 /// standard error.
 pub fn resampled_sums(rng: &mut ChaCha8Rng, x: &[f64], centre: f64) -> (f64, f64) {
     let zero = [0.0; LANES];
-    rows(rng, x.len(), Sums::<true> { x, centre, s: zero, q: zero }).totals()
+    rows(
+        rng,
+        x.len(),
+        Sums::<true> {
+            x,
+            centre,
+            s: zero,
+            q: zero,
+        },
+    )
+    .totals()
 }
 
 #[cfg(test)]
@@ -284,6 +327,15 @@ mod tests {
             high += u32::from(v >= big / 2);
         }
         // P(v ≥ big/2) = 1/2 up to 1/big: SE √(20 000/4) ≈ 70.7; 4 SE = 283.
+        assert!((f64::from(high) - 10_000.0).abs() < 283.0, "{high}");
+        let wide = 3 * (1u64 << 32) + 7;
+        let mut high = 0u32;
+        for _ in 0..20_000 {
+            let v = below_wide(&mut rng, wide);
+            assert!(v < wide);
+            high += u32::from(v >= wide / 2);
+        }
+        // The same bound for a range beyond 32 bits.
         assert!((f64::from(high) - 10_000.0).abs() < 283.0, "{high}");
     }
 }

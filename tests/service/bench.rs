@@ -48,7 +48,13 @@ fn check_kernels(report: &Value) {
         .iter()
         .map(|k| (k["statistic"].as_str().unwrap(), k["n"].as_u64().unwrap()))
         .collect();
-    for want in [("mean", 10_000), ("mean", 1_000_000), ("variance", 10_000), ("median", 10_000), ("median", 1_000_000)] {
+    for want in [
+        ("mean", 10_000),
+        ("mean", 1_000_000),
+        ("variance", 10_000),
+        ("median", 10_000),
+        ("median", 1_000_000),
+    ] {
         assert!(named.contains(&want), "no kernel {want:?} in {named:?}");
     }
     for k in kernels {
@@ -92,7 +98,15 @@ fn check_capacity(report: &Value) {
     let jobs = array(report, "/capacity/jobs");
     let named: Vec<String> = jobs
         .iter()
-        .map(|j| format!("{} {} {} {}", j["statistic"].as_str().unwrap(), j["n"], j["scheme"].as_str().unwrap(), j["methods"]))
+        .map(|j| {
+            format!(
+                "{} {} {} {}",
+                j["statistic"].as_str().unwrap(),
+                j["n"],
+                j["scheme"].as_str().unwrap(),
+                j["methods"]
+            )
+        })
         .collect();
     for want in [
         r#"mean 10000 iid ["percentile"]"#,
@@ -140,10 +154,21 @@ fn the_json_report_has_every_part_and_every_rate_is_a_rate() {
 #[test]
 fn the_text_report_has_its_four_parts() {
     let text = bench(&[]);
-    for part in ["The ceiling", "Kernels, one thread", "Scaling:", "Capacity on 2 threads", "extrapolated"] {
+    for part in [
+        "The ceiling",
+        "Kernels, one thread",
+        "Scaling:",
+        "Capacity on 2 threads",
+        "extrapolated",
+    ] {
         assert!(text.contains(part), "no {part:?} in:\n{text}");
     }
-    for job in ["mean, n = 10 000", "median, n = 1 000 000", "stationary blocks of mean 50", "percentile + BCa"] {
+    for job in [
+        "mean, n = 10 000",
+        "median, n = 1 000 000",
+        "stationary blocks of mean 50",
+        "percentile + BCa",
+    ] {
         assert!(text.contains(job), "no {job:?} in:\n{text}");
     }
 }

@@ -216,17 +216,15 @@ impl Order {
     }
 }
 
-/// A unit of `lo..hi` drawn with probability proportional to its count: a uniform position
-/// in the units' cumulative counts, then the unit whose range holds it. Counts are whole, so a
-/// whole position drawn by [`draw::below`] is exact where the counts fit in 32 bits; beyond,
-/// a 53-bit uniform fraction is used.
+/// A unit of `lo..hi` drawn with probability proportional to its count: a uniform whole
+/// position in the units' cumulative counts (exact: counts are whole and below 2^53), then the
+/// unit whose range holds it.
 fn unit_at(cum: &[f64], lo: usize, hi: usize, rng: &mut ChaCha8Rng) -> usize {
     let span = cum[hi] - cum[lo];
     let pos = if span <= f64::from(u32::MAX) {
         f64::from(draw::below(rng, span as u32))
     } else {
-        use rand::Rng;
-        (rng.random::<f64>() * span).floor()
+        draw::below_wide(rng, span as u64) as f64
     };
     let target = cum[lo] + pos;
     // The unit j with cum[j] ≤ target < cum[j + 1].
