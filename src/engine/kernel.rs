@@ -245,9 +245,7 @@ impl Kernel<'_> {
         stop: &dyn Fn() -> bool,
     ) -> Option<(f64, f64, f64)> {
         let k = usize::from(stream);
-        let units = part.units().base.len();
         wk.w[k].resize(wk.sizes[k], 0.0);
-        wk.w_inner.resize(units.max(wk.w_inner.len()), 0.0);
         let mut rng = sample_stream(self.seed, stream, i);
         let probability = resampler.draw(i, &mut rng, &mut wk.w[k]).unwrap_or(1.0);
         let value = part.evaluate(&wk.w[k], &mut wk.scratch);
@@ -276,6 +274,8 @@ impl Kernel<'_> {
             return Some(se);
         }
         let units = part.units().base.len();
+        // Sized here, on first use: only a nested bootstrap needs it.
+        wk.w_inner.resize(units.max(wk.w_inner.len()), 0.0);
         resampler.prepare_within(&wk.w[k], &mut wk.within);
         wk.inner_values.clear();
         for j in 0..self.inner {
