@@ -15,7 +15,7 @@ use utoipa::{PartialSchema, ToSchema};
 
 use super::compare::{self, CompareResponse};
 use super::decode::{describe, Decode, Errors};
-use super::interval;
+use super::interval::{self, Parsed};
 use super::job::{self, PreparedJob, Ran};
 use super::problem::{FieldError, Problem};
 use super::request::{IntervalRequest, TimeLimitMs};
@@ -185,10 +185,10 @@ fn prepare_job(i: usize, job: &Value, limits: &Limits, started: Instant, deadlin
 }
 
 /// Decode a batch and check it against the server's limits.
-fn decode(body: &[u8], max_jobs: usize) -> Result<BatchRequest, Problem> {
-    let json = interval::parse_json(body)?;
+fn decode(body: &[u8], max_jobs: usize) -> Result<(BatchRequest, Parsed), Problem> {
+    let parsed = interval::parse_json(body)?;
     let mut errs = Errors::default();
-    let req = BatchRequest::decode(json.as_object().expect("an object"), "", &[], &mut errs);
+    let req = BatchRequest::decode(parsed.json.as_object().expect("an object"), "", &[], &mut errs);
     if let Some(r) = &req {
         if r.jobs.0.len() > max_jobs {
             errs.refuse(
@@ -199,14 +199,14 @@ fn decode(body: &[u8], max_jobs: usize) -> Result<BatchRequest, Problem> {
         }
     }
     match req {
-        Some(r) if errs.is_empty() => Ok(r),
+        Some(r) if errs.is_empty() => Ok((r, parsed)),
         _ => Err(Problem::invalid(errs.0)),
     }
 }
 
 /// Run a batch body.
 pub fn compute(body: &[u8], limits: &Limits, max_jobs: usize, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
-    let req = decode(body, max_jobs)?;
+    let (req, parsed) = decode(body, max_jobs)?;
     let time_limit_ms = req
         .time_limit_ms
         .map_or(limits.default_time_limit_ms, |t| t.get())
@@ -218,7 +218,7 @@ pub fn compute(body: &[u8], limits: &Limits, max_jobs: usize, cancel: Arc<Atomic
         .0
         .iter()
         .enumerate()
-        .map(|(i, job)| prepare_job(i, job, limits, started, deadline))
+        .map(|(i, job)| parsed.decoding(&format!("/jobs/{i}"), || prepare_job(i, job, limits, started, deadline)))
         .collect();
     let total_work: f64 = prepared.iter().filter_map(|p| p.as_ref().ok()).map(PreparedJob::work).sum();
     if total_work > limits.work_limit {

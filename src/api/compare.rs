@@ -123,8 +123,8 @@ pub fn request_schema() -> RefOr<Schema> {
 
 /// Compute a comparison's response from a request body.
 pub fn compute(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
-    let json = parse_json(body)?;
-    let job = prepare(&json, &[], limits, started, None)?;
+    let parsed = parse_json(body)?;
+    let job = parsed.decoding("", || prepare(&parsed.json, &[], limits, started, None))?;
     let ran = job::run(job, cancel, None)?;
     let level = ran.params.levels.0[0].get();
     respond(ran, Reading::alone(level), started)

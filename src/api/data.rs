@@ -8,6 +8,7 @@ use utoipa::openapi::{Ref, RefOr};
 use utoipa::{PartialSchema, ToSchema};
 
 use super::decode::{describe, unknown_fields, Decode, Errors};
+use super::lift;
 use super::problem::escape_token;
 use super::rules::Rule;
 use crate::engine::data::{DataError, Form, Place, Sample, MAX_MAGNITUDE};
@@ -37,6 +38,9 @@ fn number_message(v: &Value) -> String {
 
 /// An array of numbers; every bad element is reported (magnitudes are the engine's to check).
 fn numbers(v: &Value, at: &str, errs: &mut Errors) -> Option<Vec<f64>> {
+    if let Some(x) = lifted(v, at) {
+        return Some(x);
+    }
     let Value::Array(items) = v else {
         errs.push(at, format!("must be an array of numbers; got {}", describe(v)));
         return None;
@@ -52,6 +56,11 @@ fn numbers(v: &Value, at: &str, errs: &mut Errors) -> Option<Vec<f64>> {
         );
     }
     bad.is_empty().then(|| items.iter().map(|x| x.as_f64().expect("checked")).collect())
+}
+
+/// The array lifted out of the body at `at` (which the tree holds as `[]`), if it was.
+fn lifted(v: &Value, at: &str) -> Option<Vec<f64>> {
+    matches!(v, Value::Array(a) if a.is_empty()).then(|| lift::take(at)).flatten()
 }
 
 /// A whole number of observations (0 or more; `2.0` counts, as JSON Schema reads it).
@@ -70,7 +79,8 @@ fn counts(v: Option<&Value>, at: &str, required: &str, errs: &mut Errors) -> Opt
         errs.push(at, required);
         return None;
     };
-    let Value::Array(items) = v else {
+    let lifted = lifted(v, &at).map(|x| x.into_iter().map(Value::from).collect::<Vec<_>>());
+    let Some(items) = lifted.as_ref().or(v.as_array()) else {
         errs.push(at, format!("must be an array of whole numbers; got {}", describe(v)));
         return None;
     };

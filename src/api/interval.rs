@@ -10,14 +10,35 @@ use serde_json::Value;
 use super::data::DataForm;
 use super::decode::checked;
 use super::job::{self, Asked, PreparedJob, Ran};
+use super::lift::{self, Lifted};
 use super::problem::Problem;
 use super::request::IntervalRequest;
 use super::response::IntervalResponse;
 use crate::config::Limits;
 
+/// A body parsed: the JSON tree, and the large data arrays read around it (see [`lift`]).
+pub struct Parsed {
+    pub json: Value,
+    pub lifted: Arc<Lifted>,
+}
+
+impl Parsed {
+    /// Run a decoder of the value at `prefix` (empty for the whole body) with the lifted arrays
+    /// within its reach.
+    pub fn decoding<R>(&self, prefix: &str, f: impl FnOnce() -> R) -> R {
+        lift::within(&self.lifted, prefix, f)
+    }
+}
+
 /// Parse a body as a JSON object, accepting bare `NaN`/`Infinity` only so as to name them in a
 /// 422.
-pub fn parse_json(body: &[u8]) -> Result<Value, Problem> {
+pub fn parse_json(body: &[u8]) -> Result<Parsed, Problem> {
+    let (body, lifted) = lift::lift(body);
+    let json = parse_tree(&body)?;
+    Ok(Parsed { json, lifted })
+}
+
+fn parse_tree(body: &[u8]) -> Result<Value, Problem> {
     let value = match serde_json::from_slice::<Value>(body) {
         Ok(v) => v,
         Err(e) => {
@@ -96,8 +117,8 @@ pub fn compute(
     started: Instant,
     replicate_cap: Option<u64>,
 ) -> Result<Value, Problem> {
-    let json = parse_json(body)?;
-    let job = prepare(&json, &[], limits, started, None)?;
+    let parsed = parse_json(body)?;
+    let job = parsed.decoding("", || prepare(&parsed.json, &[], limits, started, None))?;
     respond(job::run(job, cancel, replicate_cap)?, started)
 }
 
@@ -118,7 +139,7 @@ pub fn prepare(
     let form = DataForm::of(&req.data.0);
     let asked = Asked {
         resampling: &req.resampling,
-        samples: vec![(req.data.0.clone(), "/data", form)],
+        samples: vec![(req.data.0, "/data", form)],
         comparing: None,
     };
     job::prepare(&asked, None, limits, started, deadline_cap)

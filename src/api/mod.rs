@@ -13,6 +13,7 @@ pub mod decode;
 pub mod fields;
 pub mod interval;
 pub mod job;
+pub mod lift;
 pub mod openapi;
 pub mod pool;
 pub mod problem;

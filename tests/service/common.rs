@@ -324,12 +324,22 @@ pub fn pointers(problem: &Value) -> Vec<String> {
         .unwrap_or_default()
 }
 
-/// Remove the timing field, the only one that may differ between identical computations.
+/// Remove the timing fields (at any depth: a comparison's contrast and a batch's results carry
+/// their own), the only ones that may differ between identical computations.
 pub fn without_timing(mut v: Value) -> Value {
-    if let Some(o) = v.as_object_mut() {
-        o.remove("elapsed_ms");
-    }
+    strip_timing(&mut v);
     v
+}
+
+fn strip_timing(v: &mut Value) {
+    match v {
+        Value::Object(o) => {
+            o.remove("elapsed_ms");
+            o.values_mut().for_each(strip_timing);
+        }
+        Value::Array(a) => a.iter_mut().for_each(strip_timing),
+        _ => {}
+    }
 }
 
 // ---------------------------------------------------------------------------------------------

@@ -1171,3 +1171,79 @@ async fn numbers_are_read_to_the_nearest_double() {
         assert!(iv["lower"].is_f64() && iv["upper"].is_f64(), "{iv}");
     }
 }
+
+// ---------------------------------------------------------------------------------------------
+// large data arrays (read around the JSON tree)
+// ---------------------------------------------------------------------------------------------
+
+/// The same request through the lifted path and the ordinary one: escaping a key's first letter
+/// (`\u0064` is `d`) reads the same to a JSON parser but keeps the array out of the lift.
+async fn both_paths(app: &TestApp, route: &str, body: &Value, key: &str) -> (Value, Value) {
+    let text = body.to_string();
+    let plain = text.replacen(
+        &format!("\"{key}\":"),
+        &format!("\"\\u{:04x}{}\":", key.as_bytes()[0], &key[1..]),
+        1,
+    );
+    assert_ne!(text, plain, "the key {key} is in the body");
+    let lifted = ok(app.post_raw(route, "application/json", text.into_bytes()).await);
+    let ordinary = ok(app.post_raw(route, "application/json", plain.into_bytes()).await);
+    (without_timing(lifted), without_timing(ordinary))
+}
+
+#[tokio::test]
+async fn a_large_array_gives_the_same_response_as_the_ordinary_parser() {
+    let app = TestApp::spawn().await;
+    let x: Vec<f64> = sample(6000).iter().map(|v| v * 1.000_000_3 - 17.25).collect();
+    let y: Vec<f64> = x.iter().map(|v| v * 1.01 + 0.5).collect();
+    let cases = [
+        (
+            "/v1/interval",
+            json!({"data": x, "statistic": "median", "seed": 4, "resamples": 400}),
+            "data",
+        ),
+        (
+            "/v1/interval",
+            json!({"data": {"columns": {"a/b": x, "y": y}}, "statistic": {"name": "correlation", "x": "a/b", "y": "y"}, "seed": 4, "resamples": 200}),
+            "a/b",
+        ),
+        (
+            "/v1/interval",
+            json!({"data": {"values": x, "counts": vec![3; x.len()]}, "statistic": "mean", "seed": 4, "resamples": 200}),
+            "counts",
+        ),
+        (
+            "/v1/compare",
+            json!({"baseline": x, "candidate": y, "statistic": "mean", "seed": 4, "resamples": 200}),
+            "candidate",
+        ),
+        (
+            "/v1/batch",
+            json!({"jobs": [{"kind": "interval", "data": x, "seed": 2, "resamples": 200}, {"kind": "interval", "data": [1.0, 2.0, 4.0], "seed": 1}]}),
+            "data",
+        ),
+    ];
+    for (route, body, key) in cases {
+        let (lifted, ordinary) = both_paths(&app, route, &body, key).await;
+        assert_eq!(lifted, ordinary, "{route} {key}");
+    }
+}
+
+#[tokio::test]
+async fn a_bad_element_of_a_large_array_is_still_named() {
+    let app = TestApp::spawn().await;
+    let x: Vec<String> = sample(6000).iter().map(f64::to_string).collect();
+    let mut items = x.clone();
+    items[4321] = "NaN".into();
+    let v = invalid(
+        post_raw_json(&app, &format!("{{\"data\": [{}]}}", items.join(","))).await,
+        &["/data/4321"],
+    );
+    assert!(message_at(&v, "/data/4321").contains("finite"), "{v}");
+    let counts = format!(
+        "{{\"data\": {{\"values\": [{}], \"counts\": [{}-1]}}}}",
+        x.join(","),
+        "1,".repeat(5999)
+    );
+    invalid(post_raw_json(&app, &counts).await, &["/data/counts/5999"]);
+}
