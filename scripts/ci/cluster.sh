@@ -8,7 +8,7 @@ cd "$(dirname "$0")/../.."
 
 [ -x target/release/bandsaw ] || { echo "target/release/bandsaw is missing: run cargo build --release" >&2; exit 1; }
 missing=()
-command -v nginx >/dev/null 2>&1 || [ -x /usr/sbin/nginx ] || missing+=(nginx-light)
+command -v nginx >/dev/null 2>&1 || [ -x /usr/sbin/nginx ] || missing+=(nginx)
 command -v wrk >/dev/null 2>&1 || missing+=(wrk)
 command -v python3 >/dev/null 2>&1 || missing+=(python3)
 if [ "${#missing[@]}" -gt 0 ]; then

@@ -9,7 +9,8 @@
 (c) under steady load, one replica gets SIGKILL: nginx's retries keep failed requests at zero;
 (d) load figures through nginx (wrk, scripts/load/interval.lua): requests/s, per core, p50/p99
     at concurrency 1, 4 and 16, one replica against three. These are measurements, printed as
-    a table, not asserted.
+    a table, not asserted;
+(e) Ctrl-C stops the whole cluster (scripts/local-cluster's trap).
 
 Knobs (environment): ROUNDS (1) repeats (b) and (c); LOAD_SECONDS (3) per wrk run in (d);
 SKIP_LOAD=1 skips (d). Only 127.0.0.1 is contacted.
@@ -58,6 +59,9 @@ class Cluster:
             stdout=subprocess.PIPE,
             text=True,
             env=dict(os.environ, KEEP="0"),
+            # A shell started in the background ignores SIGINT, and an ignored signal stays
+            # ignored across exec (and cannot be trapped): give local-cluster the default back.
+            preexec_fn=lambda: signal.signal(signal.SIGINT, signal.SIG_DFL),
         )
         self.replicas = []  # (pid, "127.0.0.1:port")
         self.url = self.dir = None
@@ -245,6 +249,19 @@ class ClusterTest(unittest.TestCase):
                 load, status = run_with_signal(self, signal.SIGKILL, f"SIGKILL round {r + 1}")
                 self.assertEqual(load.failures, [])
                 self.assertEqual(status, 128 + signal.SIGKILL)
+
+    def test_e_ctrl_c_stops_everything(self):
+        """local-cluster on SIGINT (Ctrl-C): every replica and nginx stopped, its folder gone."""
+        cluster = Cluster(replicas=2)
+        cluster.proc.send_signal(signal.SIGINT)
+        self.assertEqual(cluster.proc.wait(timeout=30), 130)
+        cluster.proc.stdout.close()
+        for pid, _ in cluster.replicas:
+            with self.assertRaises(ProcessLookupError, msg=f"replica {pid} still runs"):
+                os.kill(pid, 0)
+        with self.assertRaises(OSError, msg="the balancer still accepts connections"):
+            http.client.HTTPConnection(cluster.host, int(cluster.port), timeout=5).connect()
+        self.assertFalse(os.path.exists(cluster.dir))
 
     @unittest.skipIf(os.environ.get("SKIP_LOAD") == "1", "SKIP_LOAD=1")
     def test_d_load_figures(self):
