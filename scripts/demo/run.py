@@ -120,7 +120,8 @@ def checkout_histogram():
         else:
             seconds = g.lognormal(0.19, 0.45)
         # The smallest bucket that holds it, then running sums: what `le` buckets count.
-        cumulative[next(i for i, le in enumerate(LATENCY_BUCKETS + [math.inf]) if seconds <= le)] += 1
+        bucket = next(i for i, le in enumerate(LATENCY_BUCKETS + [math.inf]) if seconds <= le)
+        cumulative[bucket] += 1
     for i in range(1, len(cumulative)):
         cumulative[i] += cumulative[i - 1]
     return cumulative
@@ -129,8 +130,9 @@ def checkout_histogram():
 def bins_from_cumulative(cumulative):
     """Prometheus-style cumulative buckets to bandsaw's `bins`: the count in each bin, the first
     edge 0 (no latency is below it), and +Inf minus the last finite bucket as the overflow."""
-    counts = [cumulative[0]] + [cumulative[i] - cumulative[i - 1] for i in range(1, len(LATENCY_BUCKETS))]
-    overflow = cumulative[-1] - cumulative[len(LATENCY_BUCKETS) - 1]
+    finite = len(LATENCY_BUCKETS)
+    counts = [cumulative[0]] + [cumulative[i] - cumulative[i - 1] for i in range(1, finite)]
+    overflow = cumulative[-1] - cumulative[finite - 1]
     return {"edges": [0] + LATENCY_BUCKETS, "counts": counts, "overflow": overflow}
 
 
@@ -242,7 +244,8 @@ def start_server(binary):
 
 
 def interval_job(data, statistic, scheme=None, methods=None):
-    job = {"data": data, "statistic": statistic, "resamples": RESAMPLES, "seed": BOOT_SEED, "levels": [LEVEL]}
+    job = {"data": data, "statistic": statistic, "resamples": RESAMPLES, "seed": BOOT_SEED,
+           "levels": [LEVEL]}
     if scheme:
         job["scheme"] = scheme
     if methods:
@@ -338,7 +341,8 @@ def tile_rows(rows):
         d = decimals(hi - lo)
         mc = max(i["lower_mc_error"], i["upper_mc_error"]) * scale
         span = f"{num(lo, d)} to {num(hi, d)} {unit}"
-        print(f"   {metric:<18}{num(est, d) + ' ' + unit:>12}   {span:<26}{'±' + num(mc, d + 1):>9}")
+        shown = f"{num(est, d)} {unit}"
+        print(f"   {metric:<18}{shown:>12}   {span:<26}{'±' + num(mc, d + 1):>9}")
     for metric, r, _, _ in rows:
         if warnings_of(r):
             wrapped("warning", f"{metric}: {warning_text(warnings_of(r))}")
@@ -386,7 +390,8 @@ def case_latency(svc):
         interval_job(data, {"name": "quantile", "p": 0.99}),
         interval_job(data, {"name": "exceedance", "threshold": 1}),
     ]
-    answer = svc.post("1-checkout-latency", "/v1/batch", {"jobs": [dict(j, kind="interval") for j in jobs]})
+    batch = {"jobs": [dict(j, kind="interval") for j in jobs]}
+    answer = svc.post("1-checkout-latency", "/v1/batch", batch)
     p50, p95, p99, slow = batch_results(answer, "checkout latency")
     heading(
         1,
@@ -529,7 +534,10 @@ def run_check(binary, before, after, save_dir):
         common = [binary, "check", *paths, "--tolerance", str(TOLERANCE), "--resamples", "10000",
                   "--seed", str(BOOT_SEED), "--level", str(LEVEL)]
         proc = subprocess.run(common + ["--format", "json"], capture_output=True, text=True)
-    report = json.loads(proc.stdout)
+    try:
+        report = json.loads(proc.stdout)
+    except ValueError:
+        sys.exit(f"bandsaw check exited {proc.returncode} without a report: {proc.stderr}")
     if save_dir:
         with open(os.path.join(save_dir, "5-search-check.json"), "w") as f:
             json.dump({"exit_status": proc.returncode, "report": report}, f, indent=1)
