@@ -562,14 +562,15 @@ def case_search(svc, binary, save_dir):
         f"{len(SEARCH_SUITE)} benchmarks, {SEARCH_RUNS} runs a side; ratio of means, changes "
         f"within {TOLERANCE:.0%} count as none; Holm over the suite at {LEVEL:.0%}",
     )
-    print(f"   {'verdict':<14}{'benchmark':<30}{'change':>8}   {'interval':<19}{'read at':>9}")
+    method = next(iter(results.values()))["decision"]["method"]
+    print(f"   {'verdict':<14}{'benchmark':<30}{'change':>8}   {method + ' interval':<24}{'read at':>9}")
     order = {"regression": 0, "inconclusive": 1, "improvement": 2, "equivalent": 3}
     for name, r in sorted(results.items(), key=lambda kv: (order[kv[1]["verdict"]], kv[0])):
         dec = r["decision"]
         change = r["candidate_estimate"] / r["baseline_estimate"] - 1
         span = f"{dec['lower'] - 1:+.1%} to {dec['upper'] - 1:+.1%}"
         verdict = r["verdict"].upper() if r["verdict"] == "regression" else r["verdict"]
-        print(f"   {verdict:<14}{name:<30}{change:>+8.1%}   {span:<19}{dec['level']:>9.2%}")
+        print(f"   {verdict:<14}{name:<30}{change:>+8.1%}   {span:<24}{dec['level']:>9.2%}")
     for name, r in results.items():
         if r["verdict"] != "equivalent":
             wrapped("why", f"{name}: {r['verdict_reason']}")
