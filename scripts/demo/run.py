@@ -563,7 +563,8 @@ def case_search(svc, binary, save_dir):
         f"within {TOLERANCE:.0%} count as none; Holm over the suite at {LEVEL:.0%}",
     )
     method = next(iter(results.values()))["decision"]["method"]
-    print(f"   {'verdict':<14}{'benchmark':<30}{'change':>8}   {method + ' interval':<24}{'read at':>9}")
+    columns = f"{'verdict':<14}{'benchmark':<30}{'change':>8}   {method + ' interval':<24}"
+    print(f"   {columns}{'read at':>9}")
     order = {"regression": 0, "inconclusive": 1, "improvement": 2, "equivalent": 3}
     for name, r in sorted(results.items(), key=lambda kv: (order[kv[1]["verdict"]], kv[0])):
         dec = r["decision"]
