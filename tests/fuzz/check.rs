@@ -197,3 +197,20 @@ impl Tally {
         )
     }
 }
+
+/// The checks themselves refuse what they guard against, so a clean run means something.
+#[test]
+fn the_checks_refuse_bad_problems() {
+    assert!(is_pointer("") && is_pointer("/data/0") && is_pointer("/a~0b~1c"));
+    assert!(!is_pointer("data") && !is_pointer("/a~2") && !is_pointer("/a~"));
+    let body = br#"{"data": [1, 2], "levels": [95]}"#;
+    let at = |pointer: &str| Problem::invalid(vec![bandsaw::api::problem::FieldError::new(pointer, "wrong")]);
+    assert!(valid_problem(&at("/levels/0"), body).is_ok());
+    assert!(valid_problem(&at("/statistic"), body).is_ok(), "a missing field of the body");
+    assert!(
+        valid_problem(&at("/scheme/strata"), body).is_err(),
+        "neither it nor its parent exists"
+    );
+    assert!(valid_problem(&Problem::internal("a bug"), body).is_err());
+    assert!(bound(0) < bound(1 << 20), "the bound grows with the body");
+}
