@@ -12,14 +12,7 @@ use serde_json::Value;
 
 use crate::alloc::peak_of;
 use crate::mutate::{Case, Target};
-
-/// Small limits, so that every accepted case is cheap and every limit is within reach of the
-/// mutations (rows and resamples near and past them).
-pub const MAX_ROWS: u64 = 4000;
-pub const MAX_RESAMPLES: u64 = 500;
-pub const MAX_JOBS: usize = 4;
-const WORK_LIMIT: f64 = 2e6;
-const TIME_LIMIT_MS: u64 = 1000;
+use crate::{MAX_JOBS, MAX_RESAMPLES, MAX_ROWS, TIME_LIMIT_MS, WORK_LIMIT};
 
 pub fn limits() -> Limits {
     Limits {

@@ -9,6 +9,15 @@
 //! the sequence of cases, which is the same on every machine for a seed: a longer run only
 //! goes further along it.
 
+/// Small limits, so that every accepted case is cheap and every limit is within reach of the
+/// mutations (rows, resamples and jobs at and past them). Here, as the parent of `check` (which
+/// applies them) and `mutate` (which aims at them), so neither imports the other back.
+pub const MAX_ROWS: u64 = 4000;
+pub const MAX_RESAMPLES: u64 = 500;
+pub const MAX_JOBS: usize = 4;
+pub const WORK_LIMIT: f64 = 2e6;
+pub const TIME_LIMIT_MS: u64 = 1000;
+
 mod alloc;
 mod check;
 mod mutate;

@@ -9,7 +9,7 @@ use proptest::prelude::*;
 use proptest::sample::Index;
 use serde_json::{json, Value};
 
-use crate::check::{MAX_JOBS, MAX_RESAMPLES, MAX_ROWS};
+use crate::{MAX_JOBS, MAX_RESAMPLES, MAX_ROWS};
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Target {
