@@ -53,8 +53,8 @@ static GLOBAL: Counting = Counting;
 
 /// Run `f` and return its result with the most bytes it held at once beyond what was live when
 /// it started (other threads of the test binary are idle while a case runs, so what they
-/// allocate is the case's: the rayon workers it uses; the binary's one other test allocates a
-/// few hundred bytes, inside the bound's fixed 4 MiB).
+/// allocate is the case's: the rayon workers it uses; the binary's one other test holds 1 MiB
+/// for a moment, inside the bound's fixed 4 MiB).
 pub fn peak_of<R>(f: impl FnOnce() -> R) -> (R, usize) {
     let base = LIVE.load(Relaxed);
     PEAK.store(base, Relaxed);

@@ -206,4 +206,6 @@ fn the_checks_refuse_bad_problems() {
     );
     assert!(valid_problem(&Problem::internal("a bug"), body).is_err());
     assert!(bound(0) < bound(1 << 20), "the bound grows with the body");
+    let (v, held) = peak_of(|| vec![1u8; 1 << 20].len());
+    assert!(v == 1 << 20 && held >= 1 << 20, "the allocator counts what a case holds: {held}");
 }
