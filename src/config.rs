@@ -15,7 +15,7 @@ pub const DEFAULT_MAX_BATCH_JOBS: usize = 1000;
 pub const DEFAULT_SHUTDOWN_GRACE_MS: u64 = 30_000;
 /// How long a client may take to send a request's headers, and again its body: long enough for
 /// a full-size body over a slow link, short enough that a client trickling bytes lets go of its
-/// connection.
+/// connection. (The header timer also closes a kept-alive connection idle this long.)
 pub const DEFAULT_REQUEST_READ_TIMEOUT_MS: u64 = 30_000;
 /// Connections served at once; further ones wait in the listen backlog. Each may hold one body
 /// of up to `max_body_bytes` while it is read, so this times the body limit bounds that memory.
