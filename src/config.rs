@@ -13,6 +13,13 @@ pub const DEFAULT_TIME_LIMIT_MS: u64 = 10_000;
 pub const DEFAULT_MAX_TIME_LIMIT_MS: u64 = 60_000;
 pub const DEFAULT_MAX_BATCH_JOBS: usize = 1000;
 pub const DEFAULT_SHUTDOWN_GRACE_MS: u64 = 30_000;
+/// How long a client may take to send a request's headers, and again its body: long enough for
+/// a full-size body over a slow link, short enough that a client trickling bytes lets go of its
+/// connection. (The header timer also closes a kept-alive connection idle this long.)
+pub const DEFAULT_REQUEST_READ_TIMEOUT_MS: u64 = 30_000;
+/// Connections served at once; further ones wait in the listen backlog. Each may hold one body
+/// of up to `max_body_bytes` while it is read, so this times the body limit bounds that memory.
+pub const DEFAULT_MAX_CONNECTIONS: usize = 256;
 /// Jobs that may wait per compute thread when no queue depth is set.
 pub const QUEUE_PER_THREAD: usize = 4;
 
@@ -84,6 +91,14 @@ pub struct Config {
     /// Largest request body in bytes.
     #[arg(long, env = "BANDSAW_MAX_BODY_BYTES", default_value_t = DEFAULT_MAX_BODY_BYTES)]
     pub max_body_bytes: usize,
+    /// How long a client may take to send a request's headers, and again its body, in
+    /// milliseconds; past it the connection is closed (headers) or answered 408 (body).
+    #[arg(long, env = "BANDSAW_REQUEST_READ_TIMEOUT_MS", default_value_t = DEFAULT_REQUEST_READ_TIMEOUT_MS, value_parser = clap::value_parser!(u64).range(1..))]
+    pub request_read_timeout_ms: u64,
+    /// Connections served at once; further ones wait to be accepted. With `--max-body-bytes`
+    /// it bounds the memory held by bodies being read.
+    #[arg(long, env = "BANDSAW_MAX_CONNECTIONS", default_value_t = DEFAULT_MAX_CONNECTIONS, value_parser = clap::builder::RangedU64ValueParser::<usize>::new().range(1..))]
+    pub max_connections: usize,
     /// Jobs that may wait for a compute thread (0: four per thread); beyond them requests are
     /// answered 503 overloaded at once.
     #[arg(long, env = "BANDSAW_QUEUE", default_value_t = 0)]
@@ -117,6 +132,8 @@ impl Default for Config {
             limits: Limits::default(),
             max_batch_jobs: DEFAULT_MAX_BATCH_JOBS,
             max_body_bytes: DEFAULT_MAX_BODY_BYTES,
+            request_read_timeout_ms: DEFAULT_REQUEST_READ_TIMEOUT_MS,
+            max_connections: DEFAULT_MAX_CONNECTIONS,
             queue: 0,
             api_keys: String::new(),
             api_key_file: None,

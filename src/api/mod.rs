@@ -61,6 +61,9 @@ pub struct AppState {
     /// SHA-256 of every accepted API key; empty: no keys needed.
     pub key_digests: Arc<Vec<[u8; 32]>>,
     pub test_hooks: bool,
+    /// How long a client may take to send a body (headers have their own timeout in the
+    /// connection, of the same length).
+    pub read_timeout: std::time::Duration,
 }
 
 /// What a compute route learned about its job, for the request's log line. Never data values.
@@ -336,6 +339,7 @@ fn outcome_of(p: &Problem) -> &'static str {
     match p.slug() {
         "malformed-json" => "malformed-json",
         "body-too-large" => "body-too-large",
+        "request-timeout" => "request-timeout",
         "unsupported-media-type" => "unsupported-media-type",
         "invalid-request" => "invalid-request",
         "work-limit" => "work-limit",
@@ -392,12 +396,20 @@ fn is_json(headers: &HeaderMap) -> bool {
         .unwrap_or(false)
 }
 
-/// Read the whole body under the byte limit.
-pub async fn read_body(body: Body, limit: usize) -> Result<axum::body::Bytes, Problem> {
-    match Limited::new(body, limit).collect().await {
-        Ok(c) => Ok(c.to_bytes()),
-        Err(e) if e.downcast_ref::<LengthLimitError>().is_some() => Err(Problem::body_too_large(limit)),
-        Err(_) => Err(Problem::malformed_json("the body could not be read to its end")),
+/// The body length the client announced, if any.
+fn declared_length(headers: &HeaderMap) -> Option<u64> {
+    headers.get(header::CONTENT_LENGTH)?.to_str().ok()?.trim().parse().ok()
+}
+
+/// Read the whole body under the byte limit, on the async runtime (never on a compute thread, so
+/// a slow sender holds only its connection), within `timeout` in all: a deadline for the whole
+/// body rather than between bytes, so that trickling a byte at a time does not keep it open.
+pub async fn read_body(body: Body, limit: usize, timeout: std::time::Duration) -> Result<axum::body::Bytes, Problem> {
+    match tokio::time::timeout(timeout, Limited::new(body, limit).collect()).await {
+        Err(_) => Err(Problem::request_timeout(timeout.as_millis() as u64)),
+        Ok(Ok(c)) => Ok(c.to_bytes()),
+        Ok(Err(e)) if e.downcast_ref::<LengthLimitError>().is_some() => Err(Problem::body_too_large(limit)),
+        Ok(Err(_)) => Err(Problem::malformed_json("the body could not be read to its end")),
     }
 }
 
@@ -415,10 +427,15 @@ async fn compute_route(
         if !is_json(&headers) {
             return Err(Problem::unsupported_media_type());
         }
+        // Refused before a byte of the body is read: a client that sent `Expect: 100-continue`
+        // then never sends it.
+        if declared_length(&headers).is_some_and(|n| n > app.max_body_bytes as u64) {
+            return Err(Problem::body_too_large(app.max_body_bytes));
+        }
         if app.pool.full() {
             return Err(app.pool.shed());
         }
-        let bytes = read_body(body, app.max_body_bytes).await?;
+        let bytes = read_body(body, app.max_body_bytes, app.read_timeout).await?;
         let cancel = Arc::new(AtomicBool::new(false));
         let _guard = CancelOnDrop(cancel.clone());
         let limits = app.limits.clone();
@@ -496,6 +513,7 @@ fn facts_of(v: &serde_json::Value) -> JobFacts {
         (status = 200, description = "The result.", body = response::IntervalResponse, content_type = "application/json", example = json!(openapi::interval_response_example())),
         (status = 400, response = openapi::MalformedJson),
         (status = 401, response = openapi::Unauthorized),
+        (status = 408, response = openapi::RequestTimeout),
         (status = 409, response = openapi::DataMismatch),
         (status = 413, response = openapi::BodyTooLarge),
         (status = 415, response = openapi::UnsupportedMediaType),
@@ -538,6 +556,7 @@ pub(crate) async fn interval_route(State(app): State<AppState>, headers: HeaderM
         (status = 200, description = "The comparison and its verdict.", body = compare::CompareResponse, content_type = "application/json", example = json!(openapi::compare_response_example())),
         (status = 400, response = openapi::MalformedJson),
         (status = 401, response = openapi::Unauthorized),
+        (status = 408, response = openapi::RequestTimeout),
         (status = 409, response = openapi::DataMismatch),
         (status = 413, response = openapi::BodyTooLarge),
         (status = 415, response = openapi::UnsupportedMediaType),
@@ -576,6 +595,7 @@ pub(crate) async fn compare_route(State(app): State<AppState>, headers: HeaderMa
         (status = 200, description = "One result or one problem per job, in order.", body = batch::BatchResponse, content_type = "application/json", example = json!(openapi::batch_response_example())),
         (status = 400, response = openapi::MalformedJson),
         (status = 401, response = openapi::Unauthorized),
+        (status = 408, response = openapi::RequestTimeout),
         (status = 413, response = openapi::BodyTooLarge),
         (status = 415, response = openapi::UnsupportedMediaType),
         (status = 422, response = openapi::Unprocessable),

@@ -89,6 +89,7 @@ routes never need a key.";
             Unauthorized,
             NotFound,
             MethodNotAllowed,
+            RequestTimeout,
             DataMismatch,
             BodyTooLarge,
             UnsupportedMediaType,
@@ -441,6 +442,9 @@ problem_responses! {
         retry_after = false, www_authenticate = false;
     MethodNotAllowed: 405, "`/problems/method-not-allowed`: the route does not answer this method (any method a path of this document does not list).",
         [method_not_allowed_example()],
+        retry_after = false, www_authenticate = false;
+    RequestTimeout: 408, "`/problems/request-timeout`: the body did not arrive within the server's read timeout (a client that is slow to send its headers has its connection closed instead).",
+        [Problem::request_timeout(30_000)],
         retry_after = false, www_authenticate = false;
     DataMismatch: 409, "`/problems/data-mismatch`: a token was replayed on other data.",
         [Problem::data_mismatch()],

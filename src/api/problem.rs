@@ -92,6 +92,16 @@ impl Problem {
         )
     }
 
+    /// The client did not send its whole body within the server's read timeout.
+    pub fn request_timeout(timeout_ms: u64) -> Self {
+        Problem::new(
+            StatusCode::REQUEST_TIMEOUT,
+            "request-timeout",
+            "The body arrived too slowly",
+            format!("the body was not received within this server's limit of {timeout_ms} ms; send it at once, or send less"),
+        )
+    }
+
     pub fn unsupported_media_type() -> Self {
         Problem::new(
             StatusCode::UNSUPPORTED_MEDIA_TYPE,

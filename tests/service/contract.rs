@@ -80,14 +80,18 @@ const ROUTES: &[(&str, &str, &[&str])] = &[
     (
         "post",
         "/v1/interval",
-        &["200", "400", "401", "409", "413", "415", "422", "500", "503"],
+        &["200", "400", "401", "408", "409", "413", "415", "422", "500", "503"],
     ),
     (
         "post",
         "/v1/compare",
-        &["200", "400", "401", "409", "413", "415", "422", "500", "503"],
+        &["200", "400", "401", "408", "409", "413", "415", "422", "500", "503"],
     ),
-    ("post", "/v1/batch", &["200", "400", "401", "413", "415", "422", "500", "503"]),
+    (
+        "post",
+        "/v1/batch",
+        &["200", "400", "401", "408", "413", "415", "422", "500", "503"],
+    ),
     ("get", "/v1/catalog", &["200", "401"]),
     ("get", "/healthz", &["200"]),
     ("get", "/readyz", &["200", "503"]),
@@ -167,6 +171,7 @@ fn the_document_is_openapi_3_1_and_lists_every_route_and_status() {
     }
     let types = |path: &str, method: &str, status: &str| problem_types(doc, &doc["paths"][path][method]["responses"][status]);
     assert_eq!(types("/v1/interval", "post", "400"), ["/problems/malformed-json"]);
+    assert_eq!(types("/v1/interval", "post", "408"), ["/problems/request-timeout"]);
     assert_eq!(types("/v1/interval", "post", "409"), ["/problems/data-mismatch"]);
     assert_eq!(
         types("/v1/interval", "post", "422"),

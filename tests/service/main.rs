@@ -9,6 +9,8 @@
 //!   enumeration by default, pairs, tokens, validation, Bonferroni and Holm families.
 //! - [`service`]: catalogue, batch, shedding and the pool, keys, metrics, CORS, compression.
 //! - [`process`]: the binary: shutdown, logs, command-line help.
+//! - [`faults`]: the binary against clients that hang up mid-job, trickle bytes, or hold more
+//!   connections than it serves.
 //! - [`check`]: `bandsaw check` as a CI job runs it: input forms, reports, exit statuses, and
 //!   the same report in-process and from a server.
 //! - [`bench`]: `bandsaw bench --quick`, text and JSON: every part of the report there and
@@ -21,6 +23,7 @@ mod check;
 mod common;
 mod compare;
 mod contract;
+mod faults;
 mod golden;
 mod interval;
 mod process;

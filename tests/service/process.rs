@@ -206,6 +206,8 @@ fn each_command_offers_only_the_flags_that_apply_to_it() {
         "--cors-origins",
         "--queue",
         "--max-body-bytes",
+        "--max-connections",
+        "--request-read-timeout-ms",
     ] {
         assert!(
             !interval.contains(server_only),
@@ -240,7 +242,15 @@ fn each_command_offers_only_the_flags_that_apply_to_it() {
         );
     }
     let serve = help_of(&["serve", "--help"]);
-    for flag in ["--listen", "--api-keys", "--cors-origins", "--max-resamples", "--threads"] {
+    for flag in [
+        "--listen",
+        "--api-keys",
+        "--cors-origins",
+        "--max-resamples",
+        "--threads",
+        "--max-connections",
+        "--request-read-timeout-ms",
+    ] {
         assert!(serve.contains(flag), "`serve --help` lacks {flag}:\n{serve}");
     }
     assert!(!serve.contains("--input"), "`serve --help` offers `interval`'s --input:\n{serve}");
