@@ -7,7 +7,7 @@
 // BANDSAW_WRITE_SCREENSHOT=1 also writes docs/img/page.png.
 
 import { spawn } from "node:child_process";
-import { mkdtempSync, mkdirSync, readFileSync, writeFileSync, rmSync, copyFileSync } from "node:fs";
+import { mkdtempSync, mkdirSync, readFileSync, rmSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join, dirname, resolve } from "node:path";
 import { fileURLToPath } from "node:url";
@@ -240,7 +240,8 @@ async function run(page, base) {
   if (process.env.BANDSAW_WRITE_SCREENSHOT) {
     const small = join(root, "docs/img/page.png");
     mkdirSync(dirname(small), { recursive: true });
-    await page.screenshot({ path: small, clip: { x: 0, y: 0, width: 1000, height: 900 } });
+    // The result card alone keeps the file small.
+    await page.locator("#result").screenshot({ path: small });
     console.log(`# wrote ${small}`);
   }
 }
