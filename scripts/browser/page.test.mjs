@@ -228,6 +228,7 @@ async function run(page, base) {
   const verdict = await page.textContent("#verdict");
   check("a comparison shows its verdict", cmp.url().endsWith("/v1/compare") && verdict.includes(cmpDirect.verdict) && verdict.includes(cmpDirect.verdict_reason));
   await page.check("#mode-interval");
+  await page.fill("#levels", "0.95");
   await computeAndWait(page, () => page.click("#compute"));
 
   // A screenshot that is not blank.
