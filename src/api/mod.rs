@@ -15,6 +15,7 @@ pub mod interval;
 pub mod job;
 pub mod lift;
 pub mod openapi;
+pub mod page;
 pub mod pool;
 pub mod problem;
 pub mod request;
@@ -110,6 +111,7 @@ pub fn router(state: AppState, cors_origins: &[String]) -> Router {
         .route("/readyz", get(readyz))
         .route("/metrics", get(metrics_route))
         .route("/openapi.json", get(openapi_route))
+        .route("/", get(page::page_route))
         .fallback(not_found)
         .method_not_allowed_fallback(method_not_allowed)
         .layer(middleware::from_fn_with_state(state.clone(), observe))

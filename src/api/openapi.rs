@@ -71,7 +71,7 @@ asked with a method it does not answer gives `405` (`/problems/method-not-allowe
 API keys are optional: a server started without keys serves `/v1/*` to anyone; a server started \
 with keys needs `Authorization: Bearer <key>` on `/v1/*` and answers `401` \
 (`/problems/unauthorized`) without a valid one. The health, readiness, metrics and document \
-routes never need a key.";
+routes and the page never need a key.";
 
 #[derive(OpenApi)]
 #[openapi(
@@ -81,7 +81,7 @@ routes never need a key.";
         description = DESCRIPTION,
         license(name = "MIT OR Apache-2.0", identifier = "MIT OR Apache-2.0"),
     ),
-    paths(super::interval_route, super::compare_route, super::batch_route, super::catalog_route, super::healthz, super::readyz, super::metrics_route, super::openapi_route),
+    paths(super::interval_route, super::compare_route, super::batch_route, super::catalog_route, super::healthz, super::readyz, super::metrics_route, super::openapi_route, super::page::page_route),
     components(
         schemas(IntervalRequest, CompareRequest, Statistic, BatchRequest, IntervalResponse, CompareResponse, BatchResponse, CatalogResponse, Problem, FieldError, Rule, Health, WarningCode),
         responses(
@@ -105,6 +105,7 @@ routes never need a key.";
         (name = "intervals", description = "Bootstrap computations"),
         (name = "discovery", description = "What this server offers: the catalogue and this document"),
         (name = "operations", description = "Liveness, readiness and metrics for orchestrators and monitoring"),
+        (name = "page", description = "A page for trying the API in a browser"),
     ),
 )]
 struct ApiDoc;

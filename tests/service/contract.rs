@@ -97,6 +97,7 @@ const ROUTES: &[(&str, &str, &[&str])] = &[
     ("get", "/readyz", &["200", "503"]),
     ("get", "/metrics", &["200"]),
     ("get", "/openapi.json", &["200"]),
+    ("get", "/", &["200", "304"]),
 ];
 
 /// Follow a local `$ref`.
@@ -136,6 +137,11 @@ fn check_operation(doc: &Value, method: &str, path: &str, statuses: &[&str]) {
     for (status, response) in responses {
         let response = deref(doc, response);
         assert!(response["description"].as_str().is_some_and(|d| !d.is_empty()), "{path} {status}");
+        if status == "304" {
+            // Not Modified has no body (RFC 9110 §15.4.5).
+            assert!(response.get("content").is_none(), "{path} {status}");
+            continue;
+        }
         let content = response["content"]
             .as_object()
             .unwrap_or_else(|| panic!("{path} {status} has content"));

@@ -497,3 +497,41 @@ async fn the_pool_admits_exactly_threads_plus_queue() {
         assert!(h.await.unwrap().is_ok());
     }
 }
+
+#[tokio::test]
+async fn the_page_is_served_with_a_strict_policy_and_revalidated_by_its_etag() {
+    // The page needs no key even where /v1/* does (it asks for one to send).
+    let app = TestApp::spawn_with(|c| c.api_keys = "page-key".into()).await;
+    let resp = app.client.get(format!("{}/", app.base)).send().await.unwrap();
+    let headers = resp.headers().clone();
+    let header = |name: &str| headers.get(name).and_then(|v| v.to_str().ok()).unwrap_or("").to_string();
+    let (status, ct, _) = TestApp::read(resp).await;
+    assert_eq!(status, 200);
+    assert_eq!(ct, "text/html; charset=utf-8");
+    let policy = header("content-security-policy");
+    assert!(policy.starts_with("default-src 'self';"), "{policy}");
+    assert!(policy.contains("script-src 'sha256-"), "{policy}");
+    assert!(!policy.contains("unsafe-inline") && !policy.contains("unsafe-eval"), "{policy}");
+    assert_eq!(header("cache-control"), "no-cache");
+    assert_eq!(header("x-content-type-options"), "nosniff");
+    let etag = header("etag");
+    assert!(etag.starts_with("W/\"") && etag.ends_with('"') && etag.len() > 4, "{etag:?}");
+    let again = app
+        .client
+        .get(format!("{}/", app.base))
+        .header("if-none-match", &etag)
+        .send()
+        .await
+        .unwrap();
+    let (status, _, _) = TestApp::read(again).await;
+    assert_eq!(status, 304);
+    let other = app
+        .client
+        .get(format!("{}/", app.base))
+        .header("if-none-match", "\"something-else\"")
+        .send()
+        .await
+        .unwrap();
+    assert_eq!(other.status().as_u16(), 200);
+    assert!(other.text().await.unwrap().contains("<form id=\"form\""));
+}
