@@ -9,6 +9,7 @@ use super::svg::{self, Figure, Mark, Tolerance};
 use super::{Drawn, JobFacts};
 use crate::engine::extras;
 use crate::engine::interval::Method;
+use crate::engine::job::Contrast;
 use crate::engine::summary::IntervalResult;
 use crate::engine::verdict::Decision;
 
@@ -113,13 +114,17 @@ pub fn interval(ran: &Ran, look: &Picture) -> Drawn {
 /// The picture of a comparison that ran, with its decision's band and verdict.
 pub fn compare(ran: &Ran, d: &Decision, look: &Picture) -> Drawn {
     let c = ran.comparing.expect("a comparison");
-    let sign = if c.contrast.name() == "ratio" { "/" } else { "−" };
+    let sign = if c.contrast == Contrast::Ratio { "/" } else { "−" };
     let what = format!(
         "the {} of the {} (candidate {sign} baseline)",
         c.contrast,
         ran.params.statistic.name()
     );
     let mut f = figure(ran, look, what);
+    // A ratio has no unit: the candidate's milliseconds over the baseline's.
+    if c.contrast == Contrast::Ratio {
+        f.unit = None;
+    }
     f.tolerance = Some(Tolerance {
         lower: d.band.0,
         upper: d.band.1,

@@ -324,6 +324,16 @@ async fn compare_picture_shades_the_band_where_the_decision_puts_it() {
     assert_eq!(verdict, "regression", "the request is built to regress by about 5 %");
     assert!(root.with_class("verdict")[0].all_text().contains(&format!("Verdict: {verdict}")));
     assert!(root.first("desc").all_text().contains(&format!("Verdict: {verdict}")));
+    // A difference has the samples' unit; a ratio has none, so it shows none.
+    for (contrast, shown) in [("difference", true), ("ratio", false)] {
+        let mut c = compare_request();
+        c["contrast"] = json!(contrast);
+        c["unit"] = json!("ms");
+        let (status, _, _, svg) = app.post_accepting("/v1/compare", &c, SVG).await;
+        assert_eq!(status, 200, "{svg}");
+        let title = parse(&svg).first("title").all_text();
+        assert_eq!(title.ends_with(" ms"), shown, "{contrast}: {title}");
+    }
 }
 
 #[tokio::test]

