@@ -14,13 +14,15 @@ use utoipa::ToSchema;
 
 use super::data::{Data, DataForm};
 use super::decode::{checked, Errors};
-use super::fields::{Methods, ResampleMode, Resamples};
+use super::fields::{Methods, Picture, ResampleMode, Resamples};
 use super::interval::parse_json;
 use super::job::{self, Asked, PreparedJob, Ran};
+use super::picture;
 use super::problem::Problem;
 use super::request::{check_rows, Comparing, Resampling};
 use super::response::{IntervalResponse, WarningJson};
 use super::rules::Rule;
+use super::Drawn;
 use crate::config::Limits;
 use crate::engine::diagnostics;
 use crate::engine::interval::{Method, COMPARISON_METHODS, DEFAULT_METHODS};
@@ -65,6 +67,8 @@ crate::wire_object! {
         tolerance: Tolerance = no_tolerance,
         flatten
         resampling: Resampling,
+        flatten
+        picture: Picture,
     }
 }
 
@@ -123,11 +127,22 @@ pub fn request_schema() -> RefOr<Schema> {
 
 /// Compute a comparison's response from a request body.
 pub fn compute(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: Instant) -> Result<Value, Problem> {
-    let parsed = parse_json(body)?;
-    let job = parsed.decoding("", || prepare(&parsed.json, &[], limits, started, None))?;
-    let ran = job::run(job, cancel, None)?;
+    let (ran, _) = run(body, limits, cancel, started)?;
     let level = ran.params.levels.0[0].get();
     respond(ran, Reading::alone(level), started)
+}
+
+/// Draw a comparison's picture from a request body, its verdict read as [`compute`] reads it.
+pub fn draw(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: Instant) -> Result<Drawn, Problem> {
+    let (ran, look) = run(body, limits, cancel, started)?;
+    let d = decision(&ran, Reading::alone(ran.params.levels.0[0].get()));
+    Ok(picture::compare(&ran, &d, &look))
+}
+
+fn run(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: Instant) -> Result<(Ran, Picture), Problem> {
+    let parsed = parse_json(body)?;
+    let (job, look) = parsed.decoding("", || prepare_looking(&parsed.json, &[], limits, started, None))?;
+    Ok((job::run(job, cancel, None)?, look))
 }
 
 /// Decode a comparison and check it against every rule; see [`super::interval::prepare`].
@@ -138,11 +153,23 @@ pub fn prepare(
     started: Instant,
     deadline_cap: Option<Instant>,
 ) -> Result<PreparedJob, Problem> {
+    prepare_looking(json, also, limits, started, deadline_cap).map(|(job, _)| job)
+}
+
+/// [`prepare`], with how a picture of the result is to look.
+fn prepare_looking(
+    json: &Value,
+    also: &[&str],
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<(PreparedJob, Picture), Problem> {
     let req = checked(
         json,
         |raw, errs| CompareRequest::decode(raw, "", also, errs),
         |r, raw, errs| r.check(raw, limits, errs),
     )?;
+    let look = req.picture.clone();
     let raw = json.as_object().expect("an object");
     let asked = Asked {
         resampling: &req.resampling,
@@ -160,7 +187,7 @@ pub fn prepare(
     }
     // Unless told otherwise, enumerate where that is cheap; else draw the default number.
     if raw.contains_key("resamples") || r.token.is_some() || r.scheme != SchemeSpec::default() {
-        return job::prepare(&asked, Some(params), limits, started, deadline_cap);
+        return Ok((job::prepare(&asked, Some(params), limits, started, deadline_cap)?, look));
     }
     let drawn = params.clone();
     let mut exact = params;
@@ -169,12 +196,13 @@ pub fn prepare(
         max_resamples: limits.max_resamples.min(EXACT_BY_DEFAULT),
         ..limits.clone()
     };
-    match job::prepare(&asked, Some(exact), &small, started, deadline_cap) {
+    let job = match job::prepare(&asked, Some(exact), &small, started, deadline_cap) {
         Err(p) if p.errors.iter().any(|e| e.rule == Some(Rule::ExactTooMany)) => {
             job::prepare(&asked, Some(drawn), limits, started, deadline_cap)
         }
         other => other,
-    }
+    }?;
+    Ok((job, look))
 }
 
 /// How a verdict was read.

@@ -2,6 +2,8 @@
 //! with bounds, the statistic (a name, or an object with its parameters), the number of
 //! resamples (a number, `"auto"` or `"exact"`) and tagged unions such as the scheme.
 
+use std::borrow::Cow;
+
 use serde::{Deserialize, Serialize};
 use serde_json::{Map, Value};
 use utoipa::openapi::schema::{ArrayBuilder, ObjectBuilder, OneOfBuilder, Schema, Type};
@@ -384,5 +386,83 @@ impl ToSchema for Resamples {
     fn schemas(schemas: &mut Vec<(String, RefOr<Schema>)>) {
         schemas.push(("ResampleCount".into(), ResampleCount::schema()));
         schemas.push(("ResampleMode".into(), ResampleMode::schema()));
+    }
+}
+
+/// The most characters of a unit: what fits under an axis.
+pub const MAX_UNIT_CHARS: usize = 16;
+
+/// A unit shown on a picture's value axis ("ms", "req/s", "€"): 1 to [`MAX_UNIT_CHARS`]
+/// characters, no control characters. It is escaped when drawn.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Unit(pub String);
+
+impl Decode for Unit {
+    fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
+        let Value::String(s) = v else {
+            errs.push(at, format!("must be a string such as \"ms\"; got {}", describe(v)));
+            return None;
+        };
+        let chars = s.chars().count();
+        if chars == 0 || chars > MAX_UNIT_CHARS {
+            errs.push(at, format!("must be 1 to {MAX_UNIT_CHARS} characters, such as \"ms\"; got {chars}"));
+            return None;
+        }
+        if s.chars().any(char::is_control) {
+            errs.push(
+                at,
+                "must not contain control characters (line breaks, tabs); write the unit on one line",
+            );
+            return None;
+        }
+        Some(Unit(s.clone()))
+    }
+}
+
+impl utoipa::PartialSchema for Unit {
+    fn schema() -> RefOr<Schema> {
+        ObjectBuilder::new()
+            .schema_type(Type::String)
+            .min_length(Some(1))
+            .max_length(Some(MAX_UNIT_CHARS))
+            .pattern(Some("^[^\\u0000-\\u001F\\u007F-\\u009F]*$"))
+            .description(Some(format!(
+                "A unit shown on a picture's value axis (\"ms\", \"req/s\"): 1 to {MAX_UNIT_CHARS} characters, no control characters."
+            )))
+            .examples(["ms"])
+            .into()
+    }
+}
+
+impl utoipa::ToSchema for Unit {
+    fn name() -> Cow<'static, str> {
+        Cow::Borrowed("Unit")
+    }
+}
+
+crate::wire_enum! {
+    /// The kind of picture drawn when the response is `image/svg+xml`.
+    pub enum PictureFormat default Full {
+        /// Two panels: the replicate histogram with the estimate and every interval marked, and
+        /// the cumulative curve with the percentile endpoints read off it.
+        Full = "full",
+        /// A sparkline-sized tile (240 × 48) for a dashboard: the estimate as a dot and the
+        /// intervals as nested bars on one axis.
+        Band = "band",
+    }
+}
+
+crate::decode_with_serde!(PictureFormat);
+
+crate::wire_object! {
+    /// How a picture of the result looks, when the response is `image/svg+xml` (`Accept`).
+    /// Presentation only: allowed beside a token, not recorded by one, and ignored in a JSON
+    /// response (and in a batch).
+    pub struct Picture {
+        optional
+        /// The unit of the values, written on the picture's value axis.
+        unit: Unit,
+        default
+        format: PictureFormat = PictureFormat::default,
     }
 }

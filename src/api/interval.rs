@@ -9,11 +9,14 @@ use serde_json::Value;
 
 use super::data::DataForm;
 use super::decode::checked;
+use super::fields::Picture;
 use super::job::{self, Asked, PreparedJob, Ran};
 use super::lift::{self, Lifted};
+use super::picture;
 use super::problem::Problem;
 use super::request::IntervalRequest;
 use super::response::IntervalResponse;
+use super::Drawn;
 use crate::config::Limits;
 
 /// A body parsed: the JSON tree, and the large data arrays read around it (see [`lift`]).
@@ -117,9 +120,26 @@ pub fn compute(
     started: Instant,
     replicate_cap: Option<u64>,
 ) -> Result<Value, Problem> {
+    let (ran, _) = run(body, limits, cancel, started, replicate_cap)?;
+    respond(ran, started)
+}
+
+/// Draw an interval's picture from a request body.
+pub fn draw(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: Instant, replicate_cap: Option<u64>) -> Result<Drawn, Problem> {
+    let (ran, look) = run(body, limits, cancel, started, replicate_cap)?;
+    Ok(picture::interval(&ran, &look))
+}
+
+fn run(
+    body: &[u8],
+    limits: &Limits,
+    cancel: Arc<AtomicBool>,
+    started: Instant,
+    replicate_cap: Option<u64>,
+) -> Result<(Ran, Picture), Problem> {
     let parsed = parse_json(body)?;
-    let job = parsed.decoding("", || prepare(&parsed.json, &[], limits, started, None))?;
-    respond(job::run(job, cancel, replicate_cap)?, started)
+    let (job, look) = parsed.decoding("", || prepare_looking(&parsed.json, &[], limits, started, None))?;
+    Ok((job::run(job, cancel, replicate_cap)?, look))
 }
 
 /// Decode an interval request and check it against every rule; `also` lists fields allowed
@@ -131,6 +151,17 @@ pub fn prepare(
     started: Instant,
     deadline_cap: Option<Instant>,
 ) -> Result<PreparedJob, Problem> {
+    prepare_looking(json, also, limits, started, deadline_cap).map(|(job, _)| job)
+}
+
+/// [`prepare`], with how a picture of the result is to look.
+fn prepare_looking(
+    json: &Value,
+    also: &[&str],
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<(PreparedJob, Picture), Problem> {
     let req = checked(
         json,
         |raw, errs| IntervalRequest::decode(raw, "", also, errs),
@@ -142,7 +173,7 @@ pub fn prepare(
         samples: vec![(req.data.0, "/data", form)],
         comparing: None,
     };
-    job::prepare(&asked, None, limits, started, deadline_cap)
+    Ok((job::prepare(&asked, None, limits, started, deadline_cap)?, req.picture))
 }
 
 /// The response JSON of an interval job that ran.

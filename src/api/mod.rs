@@ -16,12 +16,14 @@ pub mod job;
 pub mod lift;
 pub mod openapi;
 pub mod page;
+pub mod picture;
 pub mod pool;
 pub mod problem;
 pub mod request;
 pub mod response;
 pub mod rules;
 pub mod schema;
+pub mod svg;
 pub mod token;
 
 use std::sync::atomic::{AtomicBool, Ordering};
@@ -65,6 +67,18 @@ pub struct AppState {
     /// How long a client may take to send a body (headers have their own timeout in the
     /// connection, of the same length).
     pub read_timeout: std::time::Duration,
+}
+
+/// A compute route's answer: JSON, or a picture when the caller's `Accept` prefers one.
+pub enum Answer {
+    Json(serde_json::Value),
+    Svg(Drawn),
+}
+
+/// A picture of a job that ran, with what the job's log line says of it.
+pub struct Drawn {
+    pub svg: String,
+    pub facts: JobFacts,
 }
 
 /// What a compute route learned about its job, for the request's log line. Never data values.
@@ -421,7 +435,7 @@ async fn compute_route(
     app: AppState,
     headers: HeaderMap,
     body: Body,
-    work: impl FnOnce(axum::body::Bytes, Arc<Limits>, Arc<AtomicBool>, Instant) -> Result<serde_json::Value, Problem> + Send + 'static,
+    work: impl FnOnce(axum::body::Bytes, Arc<Limits>, Arc<AtomicBool>, Instant) -> Result<Answer, Problem> + Send + 'static,
 ) -> Response {
     let started = Instant::now();
     let panic_hook = app.test_hooks && headers.contains_key(TEST_PANIC_HEADER);
@@ -452,10 +466,18 @@ async fn compute_route(
     }
     .await;
     match result {
-        Ok(v) => {
-            let facts = facts_of(&v);
+        Ok(answer) => {
+            let (mut resp, facts) = match answer {
+                Answer::Json(v) => {
+                    let facts = facts_of(&v);
+                    ((StatusCode::OK, Json(v)).into_response(), facts)
+                }
+                Answer::Svg(d) => (
+                    (StatusCode::OK, [(header::CONTENT_TYPE, picture::SVG)], d.svg).into_response(),
+                    d.facts,
+                ),
+            };
             app.metrics.replicates.inc_by(facts.resamples);
-            let mut resp = (StatusCode::OK, Json(v)).into_response();
             resp.extensions_mut().insert(facts);
             resp.extensions_mut().insert(Outcome("ok"));
             resp
@@ -512,7 +534,10 @@ fn facts_of(v: &serde_json::Value) -> JobFacts {
         example = json!(openapi::interval_request_example()),
     ),
     responses(
-        (status = 200, description = "The result.", body = response::IntervalResponse, content_type = "application/json", example = json!(openapi::interval_response_example())),
+        (status = 200, description = "The result; a picture of it (`image/svg+xml`) when `Accept` prefers one (docs/api.md, Pictures).", content(
+            (response::IntervalResponse = "application/json", example = json!(openapi::interval_response_example())),
+            (String = "image/svg+xml"),
+        )),
         (status = 400, response = openapi::MalformedJson),
         (status = 401, response = openapi::Unauthorized),
         (status = 408, response = openapi::RequestTimeout),
@@ -530,10 +555,24 @@ pub(crate) async fn interval_route(State(app): State<AppState>, headers: HeaderM
         .get(TEST_STOP_AFTER_HEADER)
         .filter(|_| app.test_hooks)
         .and_then(|v| v.to_str().ok()?.parse().ok());
-    compute_route(app, headers, body, move |bytes, limits, cancel, started| {
-        interval::compute(&bytes, &limits, cancel, started, cap)
+    let svg = picture::prefers_svg(accept(&headers));
+    let resp = compute_route(app, headers, body, move |bytes, limits, cancel, started| match svg {
+        true => interval::draw(&bytes, &limits, cancel, started, cap).map(Answer::Svg),
+        false => interval::compute(&bytes, &limits, cancel, started, cap).map(Answer::Json),
     })
-    .await
+    .await;
+    vary_accept(resp)
+}
+
+/// The `Accept` header, when readable.
+fn accept(headers: &HeaderMap) -> Option<&str> {
+    headers.get(header::ACCEPT).and_then(|v| v.to_str().ok())
+}
+
+/// Tell caches that the answer depends on `Accept` (JSON or a picture).
+fn vary_accept(mut resp: Response) -> Response {
+    resp.headers_mut().append(header::VARY, HeaderValue::from_static("accept"));
+    resp
 }
 
 /// Two samples compared, with a verdict
@@ -555,7 +594,10 @@ pub(crate) async fn interval_route(State(app): State<AppState>, headers: HeaderM
         example = json!(openapi::compare_request_example()),
     ),
     responses(
-        (status = 200, description = "The comparison and its verdict.", body = compare::CompareResponse, content_type = "application/json", example = json!(openapi::compare_response_example())),
+        (status = 200, description = "The comparison and its verdict; a picture of it (`image/svg+xml`) when `Accept` prefers one (docs/api.md, Pictures).", content(
+            (compare::CompareResponse = "application/json", example = json!(openapi::compare_response_example())),
+            (String = "image/svg+xml"),
+        )),
         (status = 400, response = openapi::MalformedJson),
         (status = 401, response = openapi::Unauthorized),
         (status = 408, response = openapi::RequestTimeout),
@@ -569,10 +611,13 @@ pub(crate) async fn interval_route(State(app): State<AppState>, headers: HeaderM
     security(("bearer" = []), ()),
 )]
 pub(crate) async fn compare_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
-    compute_route(app, headers, body, move |bytes, limits, cancel, started| {
-        compare::compute(&bytes, &limits, cancel, started)
+    let svg = picture::prefers_svg(accept(&headers));
+    let resp = compute_route(app, headers, body, move |bytes, limits, cancel, started| match svg {
+        true => compare::draw(&bytes, &limits, cancel, started).map(Answer::Svg),
+        false => compare::compute(&bytes, &limits, cancel, started).map(Answer::Json),
     })
-    .await
+    .await;
+    vary_accept(resp)
 }
 
 /// Many jobs in one request
@@ -609,7 +654,7 @@ pub(crate) async fn compare_route(State(app): State<AppState>, headers: HeaderMa
 pub(crate) async fn batch_route(State(app): State<AppState>, headers: HeaderMap, body: Body) -> Response {
     let max_jobs = app.max_batch_jobs;
     compute_route(app, headers, body, move |bytes, limits, cancel, started| {
-        batch::compute(&bytes, &limits, max_jobs, cancel, started)
+        batch::compute(&bytes, &limits, max_jobs, cancel, started).map(Answer::Json)
     })
     .await
 }

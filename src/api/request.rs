@@ -8,8 +8,8 @@ use serde_json::{Map, Value};
 use super::data::{Data, DataForm};
 use super::decode::Errors;
 use super::fields::{
-    default_levels, default_methods, default_resamples, default_statistic, no_extras, Includes, Levels, Methods, ResampleMode, Resamples,
-    Statistic,
+    default_levels, default_methods, default_resamples, default_statistic, no_extras, Includes, Levels, Methods, Picture, ResampleMode,
+    Resamples, Statistic,
 };
 use super::rules::Rule;
 use crate::config::Limits;
@@ -83,17 +83,22 @@ crate::wire_object! {
         data: Data,
         flatten
         resampling: Resampling,
+        flatten
+        picture: Picture,
     }
 }
 
 /// The fields of a request that a token does not stand in for: those that govern only this
-/// run, and the token itself.
+/// run, and the token itself (and the [`Picture`] fields, presentation only).
 pub const TOKEN_KEEPS: &[&str] = &["time_limit_ms", "on_time_limit", "token"];
 
 /// Refuse every parameter a token stands in for that a request with a token also gives: its
-/// `fields` but its samples and [`TOKEN_KEEPS`].
+/// `fields` but its samples, [`TOKEN_KEEPS`] and the [`Picture`] fields.
 pub fn check_token(raw: &Map<String, Value>, fields: &[&str], samples: &[&str], errs: &mut Errors) {
-    let replaced = fields.iter().filter(|f| !samples.contains(f) && !TOKEN_KEEPS.contains(f));
+    let presentation = Picture::fields();
+    let replaced = fields
+        .iter()
+        .filter(|f| !samples.contains(f) && !TOKEN_KEEPS.contains(f) && !presentation.contains(f));
     for k in replaced.filter(|k| raw.contains_key(**k)) {
         errs.refuse(
             format!("/{k}"),

@@ -73,6 +73,28 @@ impl TestApp {
         Self::read_checked(resp, Some("get")).await
     }
 
+    /// POST JSON with an `Accept` header; returns (status, content-type, `Vary`, body as text),
+    /// the response checked against the OpenAPI document.
+    pub async fn post_accepting(&self, path: &str, body: &Value, accept: &str) -> (u16, String, String, String) {
+        let resp = self
+            .client
+            .post(format!("{}{path}", self.base))
+            .header("accept", accept)
+            .json(body)
+            .send()
+            .await
+            .expect("request");
+        let status = resp.status().as_u16();
+        let header = |name: &str| {
+            let values = resp.headers().get_all(name).iter();
+            values.filter_map(|v| v.to_str().ok()).collect::<Vec<_>>().join(", ")
+        };
+        let (ct, vary) = (header("content-type"), header("vary"));
+        let bytes = resp.bytes().await.expect("body");
+        check_response(Some("post"), path, status, &ct, &bytes);
+        (status, ct, vary, String::from_utf8(bytes.to_vec()).expect("UTF-8"))
+    }
+
     /// Read a response: (status, content-type, body as JSON, `Null` when it is not JSON). The
     /// response is checked against the OpenAPI document as that of the only operation of its
     /// path (the request's method is not known here).

@@ -15,6 +15,8 @@
 //!   the same report in-process and from a server.
 //! - [`bench`]: `bandsaw bench --quick`, text and JSON: every part of the report there and
 //!   every rate a rate (no speed is asserted).
+//! - [`svg`]: pictures (`Accept: image/svg+xml`): safe, accessible, and every mark where its
+//!   number says, read back through the axis ticks.
 //! - [`golden`]: full responses of varied requests, pinned bit for bit in `tests/golden/`.
 
 mod bench;
@@ -28,3 +30,4 @@ mod golden;
 mod interval;
 mod process;
 mod service;
+mod svg;
