@@ -13,7 +13,7 @@ use utoipa::openapi::RefOr;
 use utoipa::ToSchema;
 
 use super::data::{Data, DataForm};
-use super::decode::{checked, Errors};
+use super::decode::{checked, fitted, Errors};
 use super::fields::{Methods, ResampleMode, Resamples};
 use super::interval::parse_json;
 use super::job::{self, Asked, PreparedJob, Ran};
@@ -132,6 +132,16 @@ pub fn compute(body: &[u8], limits: &Limits, cancel: Arc<AtomicBool>, started: I
 
 /// Decode a comparison and check it against every rule; see [`super::interval::prepare`].
 pub fn prepare(
+    json: &Value,
+    also: &[&str],
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<PreparedJob, Problem> {
+    prepare_as_sent(json, also, limits, started, deadline_cap).map_err(|p| fitted(p, json))
+}
+
+fn prepare_as_sent(
     json: &Value,
     also: &[&str],
     limits: &Limits,

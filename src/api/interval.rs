@@ -8,7 +8,7 @@ use std::time::Instant;
 use serde_json::Value;
 
 use super::data::DataForm;
-use super::decode::checked;
+use super::decode::{checked, fitted};
 use super::job::{self, Asked, PreparedJob, Ran};
 use super::lift::{self, Lifted};
 use super::problem::Problem;
@@ -125,6 +125,16 @@ pub fn compute(
 /// Decode an interval request and check it against every rule; `also` lists fields allowed
 /// besides the request's own (a batch job's `kind`), `deadline_cap` bounds the job's deadline.
 pub fn prepare(
+    json: &Value,
+    also: &[&str],
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<PreparedJob, Problem> {
+    prepare_as_sent(json, also, limits, started, deadline_cap).map_err(|p| fitted(p, json))
+}
+
+fn prepare_as_sent(
     json: &Value,
     also: &[&str],
     limits: &Limits,
