@@ -14,7 +14,7 @@ use utoipa::openapi::RefOr;
 use utoipa::{PartialSchema, ToSchema};
 
 use super::compare::{self, CompareResponse};
-use super::decode::{describe, Decode, Errors};
+use super::decode::{decode_field, describe, Decode, Errors, Shape};
 use super::interval::{self, Parsed};
 use super::job::{self, PreparedJob, Ran};
 use super::problem::{FieldError, Problem};
@@ -43,7 +43,11 @@ crate::wire_enum! {
 #[derive(Debug, Clone)]
 pub struct Jobs(pub Vec<Value>);
 
+/// Always an array: a list of jobs is never unboxed by R's writers, and each job's problem
+/// points at `/jobs/<i>`.
 impl Decode for Jobs {
+    const SHAPE: Shape = Shape::AsIs;
+
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
         match v {
             Value::Array(a) if !a.is_empty() => Some(Jobs(a.clone())),
@@ -170,7 +174,7 @@ fn prepare_job(i: usize, job: &Value, limits: &Limits, started: Instant, deadlin
     };
     let mut errs = Errors::default();
     let kind: Option<JobKind> = match o.get("kind") {
-        Some(k) => Decode::decode(k, "/kind", &mut errs),
+        Some(k) => decode_field(k, "/kind", &mut errs),
         None => {
             errs.push("/kind", format!("is required: one of {}", JobKind::quoted()));
             None

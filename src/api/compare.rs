@@ -13,7 +13,7 @@ use utoipa::openapi::RefOr;
 use utoipa::ToSchema;
 
 use super::data::{Data, DataForm};
-use super::decode::{checked, Errors};
+use super::decode::{checked, fitted, Errors};
 use super::fields::{Methods, Picture, ResampleMode, Resamples};
 use super::interval::parse_json;
 use super::job::{self, Asked, PreparedJob, Ran};
@@ -156,8 +156,19 @@ pub fn prepare(
     prepare_looking(json, also, limits, started, deadline_cap).map(|(job, _)| job)
 }
 
-/// [`prepare`], with how a picture of the result is to look.
+/// [`prepare`], with how a picture of the result is to look; a problem's pointers resolve in
+/// the body as sent (a field sent in R's other form).
 fn prepare_looking(
+    json: &Value,
+    also: &[&str],
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<(PreparedJob, Picture), Problem> {
+    prepare_as_sent(json, also, limits, started, deadline_cap).map_err(|p| fitted(p, json))
+}
+
+fn prepare_as_sent(
     json: &Value,
     also: &[&str],
     limits: &Limits,

@@ -7,7 +7,7 @@ use utoipa::openapi::schema::{AdditionalProperties, ArrayBuilder, ObjectBuilder,
 use utoipa::openapi::{Ref, RefOr};
 use utoipa::{PartialSchema, ToSchema};
 
-use super::decode::{describe, unknown_fields, Decode, Errors};
+use super::decode::{describe, unknown_fields, Decode, Errors, Shape};
 use super::lift;
 use super::problem::escape_token;
 use super::rules::Rule;
@@ -180,7 +180,10 @@ fn bins(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<Result<
     Some(Sample::bins(edges?, counts?, overflow?))
 }
 
+/// Data as sent: a one-element array is a sample of one, never one value unboxed.
 impl Decode for Data {
+    const SHAPE: Shape = Shape::AsIs;
+
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
         let sample = match v {
             Value::Array(_) => Sample::column(numbers(v, at, errs)?),

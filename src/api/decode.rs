@@ -58,9 +58,77 @@ pub fn given(v: &Value) -> String {
     }
 }
 
+/// How a request field's value may be sent. R's usual JSON writer turns a length-one vector
+/// into a one-element array or a bare value depending on a setting (`auto_unbox`), so a field
+/// meets it halfway: one value also comes as a one-element array, and a list also as one item
+/// alone. Data is the exception: a one-element data array is a sample of one, never a value.
+/// The decoder ([`decode_field`]) and the OpenAPI document (`schema::lenient`) both read it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Shape {
+    /// One value (or object), or a one-element array holding it.
+    One,
+    /// An array, or one item alone standing for a one-item array.
+    List,
+    /// Exactly as its type decodes it: data arrays, and a batch's jobs.
+    AsIs,
+}
+
+/// The words every refusal of an array where one value goes uses, and the document repeats.
+pub const ONE_VALUE: &str = "one value (or a one-element array)";
+
 /// Decodes one field's value, reporting every problem under `at`.
 pub trait Decode: Sized {
+    /// How a request field of this type may be sent; one value unless said otherwise.
+    const SHAPE: Shape = Shape::One;
+
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self>;
+}
+
+/// Decode a request field's value by its type's [`Shape`]. An error inside a one-element array
+/// points at the element (`/statistic/0`); one inside a list's lone item points at the field
+/// (`/levels`): a pointer always resolves in the body as sent.
+pub fn decode_field<T: Decode>(v: &Value, at: &str, errs: &mut Errors) -> Option<T> {
+    match (T::SHAPE, v) {
+        (Shape::One, Value::Array(items)) => match items.as_slice() {
+            [one] => T::decode(one, &format!("{at}/0"), errs),
+            _ => {
+                let n = items.len();
+                errs.push(at, format!("must be {ONE_VALUE}; got an array of {n} items"));
+                None
+            }
+        },
+        (Shape::List, item) if !item.is_array() => {
+            let mut inner = Errors::default();
+            let got = T::decode(&Value::Array(vec![item.clone()]), at, &mut inner);
+            let element = format!("{at}/0");
+            for mut e in inner.0 {
+                if let Some(rest) = e.pointer.strip_prefix(&element) {
+                    e.pointer = format!("{at}{rest}");
+                }
+                errs.0.push(e);
+            }
+            got
+        }
+        _ => T::decode(v, at, errs),
+    }
+}
+
+/// A pointer made against a field's canonical form, fitted to the body as sent: an element
+/// index dropped where a list came as one item alone (`/methods/0` → `/methods`), and `/0`
+/// put in where one value came as a one-element array (`/scheme/block_length` →
+/// `/scheme/0/block_length`). Pointers into other values are left as they are.
+pub fn fit_pointer(raw: &Map<String, Value>, pointer: &str) -> String {
+    let mut tokens = pointer.splitn(4, '/').skip(1);
+    let (Some(field), Some(next)) = (tokens.next(), tokens.next()) else {
+        return pointer.to_string();
+    };
+    let rest: String = tokens.next().map(|r| format!("/{r}")).unwrap_or_default();
+    let index = next.parse::<usize>().is_ok();
+    match raw.get(field) {
+        Some(Value::Array(a)) if a.len() == 1 && !index => format!("/{field}/0/{next}{rest}"),
+        Some(v) if !v.is_array() && next == "0" && !v.is_object() => format!("/{field}{rest}"),
+        _ => pointer.to_string(),
+    }
 }
 
 /// Decode through a type's serde derive, turning serde's first error into a field error with a
@@ -212,6 +280,8 @@ macro_rules! decode_with_serde {
 
 /// An array decodes element by element, so that every bad element is named.
 impl<T: Decode> Decode for Vec<T> {
+    const SHAPE: Shape = Shape::List;
+
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
         let Value::Array(items) = v else {
             errs.push(at, format!("must be an array; got {}", describe(v)));
@@ -288,6 +358,13 @@ macro_rules! wire_object {
                 out
             }
 
+            /// How each field may be sent, those of flattened parts included.
+            pub fn shapes() -> Vec<(&'static str, $crate::api::decode::Shape)> {
+                let mut out = Vec::new();
+                $( out.extend($crate::wire_object!(@shapes $field, $ty, $($mode)*)); )*
+                out
+            }
+
             /// Decode every field of `obj` (every error at once, under `at`), refusing fields
             /// that are neither this type's nor in `also`.
             pub fn decode(
@@ -318,12 +395,16 @@ macro_rules! wire_object {
     };
     (@names $field:ident, $ty:ty, flatten) => { <$ty>::fields() };
     (@names $field:ident, $ty:ty, $($mode:tt)*) => { [stringify!($field)] };
+    (@shapes $field:ident, $ty:ty, flatten) => { <$ty>::shapes() };
+    (@shapes $field:ident, $ty:ty, $($mode:tt)*) => {
+        [(stringify!($field), <$ty as $crate::api::decode::Decode>::SHAPE)]
+    };
     (@decode $obj:ident, $at:ident, $errs:ident, $field:ident, $ty:ty, flatten) => {
         <$ty>::decode_fields($obj, $at, $errs)
     };
     (@decode $obj:ident, $at:ident, $errs:ident, $field:ident, $ty:ty, required) => {
         match $obj.get(stringify!($field)) {
-            Some(v) => <$ty as $crate::api::decode::Decode>::decode(v, &format!("{}/{}", $at, stringify!($field)), $errs),
+            Some(v) => $crate::api::decode::decode_field::<$ty>(v, &format!("{}/{}", $at, stringify!($field)), $errs),
             None => {
                 $errs.push(format!("{}/{}", $at, stringify!($field)), "is required");
                 None
@@ -332,16 +413,28 @@ macro_rules! wire_object {
     };
     (@decode $obj:ident, $at:ident, $errs:ident, $field:ident, $ty:ty, default $default:path) => {
         match $obj.get(stringify!($field)) {
-            Some(v) => <$ty as $crate::api::decode::Decode>::decode(v, &format!("{}/{}", $at, stringify!($field)), $errs),
+            Some(v) => $crate::api::decode::decode_field::<$ty>(v, &format!("{}/{}", $at, stringify!($field)), $errs),
             None => Some($default()),
         }
     };
     (@decode $obj:ident, $at:ident, $errs:ident, $field:ident, $ty:ty, optional) => {
         match $obj.get(stringify!($field)) {
-            Some(v) => <$ty as $crate::api::decode::Decode>::decode(v, &format!("{}/{}", $at, stringify!($field)), $errs).map(Some),
+            Some(v) => $crate::api::decode::decode_field::<$ty>(v, &format!("{}/{}", $at, stringify!($field)), $errs).map(Some),
             None => Some(None),
         }
     };
+}
+
+/// A problem about a request body with its pointers fitted to the body as sent (see
+/// [`fit_pointer`]): what the rules and the engine say about the canonical form, said of the
+/// lenient one.
+pub fn fitted(problem: Problem, body: &Value) -> Problem {
+    match body.as_object() {
+        Some(raw) if problem.errors.iter().any(|e| fit_pointer(raw, &e.pointer) != e.pointer) => {
+            problem.with_pointers(|p| fit_pointer(raw, p))
+        }
+        _ => problem,
+    }
 }
 
 /// Decode a request object with `decode` and hold it to the rules of `check`, every error at

@@ -10,7 +10,7 @@ use utoipa::openapi::schema::{ArrayBuilder, ObjectBuilder, OneOfBuilder, Schema,
 use utoipa::openapi::{Ref, RefOr};
 use utoipa::{PartialSchema, ToSchema};
 
-use super::decode::{describe, every_field, given, with_serde, Decode, Errors};
+use super::decode::{describe, every_field, given, with_serde, Decode, Errors, Shape};
 use crate::engine::interval::{Level, Method, DEFAULT_LEVEL, DEFAULT_METHODS};
 use crate::engine::job::{Include, InnerResamples};
 use crate::engine::plan::OnTimeLimit;
@@ -81,6 +81,8 @@ macro_rules! list_of {
         }
 
         impl Decode for $name {
+            const SHAPE: Shape = Shape::List;
+
             fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
                 bounded_list(v, at, ($min, $max), errs).map($name)
             }

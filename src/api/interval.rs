@@ -8,7 +8,7 @@ use std::time::Instant;
 use serde_json::Value;
 
 use super::data::DataForm;
-use super::decode::checked;
+use super::decode::{checked, fitted};
 use super::fields::Picture;
 use super::job::{self, Asked, PreparedJob, Ran};
 use super::lift::{self, Lifted};
@@ -154,8 +154,19 @@ pub fn prepare(
     prepare_looking(json, also, limits, started, deadline_cap).map(|(job, _)| job)
 }
 
-/// [`prepare`], with how a picture of the result is to look.
+/// [`prepare`], with how a picture of the result is to look; a problem's pointers resolve in
+/// the body as sent (a field sent in R's other form).
 fn prepare_looking(
+    json: &Value,
+    also: &[&str],
+    limits: &Limits,
+    started: Instant,
+    deadline_cap: Option<Instant>,
+) -> Result<(PreparedJob, Picture), Problem> {
+    prepare_as_sent(json, also, limits, started, deadline_cap).map_err(|p| fitted(p, json))
+}
+
+fn prepare_as_sent(
     json: &Value,
     also: &[&str],
     limits: &Limits,

@@ -18,6 +18,7 @@ use utoipa::{Modify, OpenApi, ToResponse, ToSchema};
 use super::batch::{BatchRequest, BatchResponse, JobKind};
 use super::catalog::CatalogResponse;
 use super::compare::{CompareRequest, CompareResponse};
+use super::decode::{Decode, Shape};
 use super::fields::{ResampleMode, Statistic};
 use super::problem::{FieldError, Problem};
 use super::request::IntervalRequest;
@@ -167,6 +168,22 @@ impl Modify for Flattened {
         schemas.insert(<IntervalRequest as ToSchema>::name().into(), flattened::<IntervalRequest>());
         schemas.insert(<CompareRequest as ToSchema>::name().into(), super::compare::request_schema());
         schemas.remove(<super::request::Resampling as ToSchema>::name().as_ref());
+        // Every field but data also in R's lenient forms, as the decoder takes it.
+        let with_kind = |mut shapes: Vec<(&'static str, Shape)>| {
+            shapes.insert(0, ("kind", <JobKind as Decode>::SHAPE));
+            shapes
+        };
+        let requests = [
+            (<IntervalRequest as ToSchema>::name().to_string(), IntervalRequest::shapes()),
+            (<CompareRequest as ToSchema>::name().to_string(), CompareRequest::shapes()),
+            (<BatchRequest as ToSchema>::name().to_string(), BatchRequest::shapes()),
+            ("IntervalJob".to_string(), with_kind(IntervalRequest::shapes())),
+            ("CompareJob".to_string(), with_kind(CompareRequest::shapes())),
+        ];
+        for (name, shapes) in requests {
+            let lenient = super::schema::lenient(&schemas[&name], &shapes, schemas);
+            schemas.insert(name, lenient);
+        }
     }
 }
 

@@ -131,9 +131,14 @@ impl Problem {
 
     /// The same problem about a part of a larger request: every pointer starts with `prefix`
     /// (a batch's `/jobs/<i>`), the detail too.
-    pub fn within(mut self, prefix: &str) -> Self {
+    pub fn within(self, prefix: &str) -> Self {
+        self.with_pointers(|p| format!("{prefix}{p}"))
+    }
+
+    /// The same problem with every pointer passed through `f`, the detail too.
+    pub fn with_pointers(mut self, f: impl Fn(&str) -> String) -> Self {
         for e in &mut self.errors {
-            e.pointer = format!("{prefix}{}", e.pointer);
+            e.pointer = f(&e.pointer);
         }
         if !self.errors.is_empty() {
             self.detail = self.invalid_detail();

@@ -4,10 +4,12 @@
 
 use std::collections::BTreeMap;
 
-use serde_json::Value;
+use serde_json::{json, Value};
 use utoipa::openapi::schema::{AdditionalProperties, Object, ObjectBuilder, Schema, Type};
 use utoipa::openapi::RefOr;
 use utoipa::ToSchema;
+
+use super::decode::{Shape, ONE_VALUE};
 
 /// A variant of a tagged union as one object: its tag property first, then its parameters,
 /// refusing unknown fields as the parser does.
@@ -116,4 +118,69 @@ fn flattened_parts(schema: &RefOr<Schema>) -> Option<Vec<Object>> {
             .map(|v| v.concat()),
         _ => None,
     }
+}
+
+/// What the document says of every field sent in R's lenient forms (see [`Shape`]).
+const ONE_NOTE: &str = "Also accepted as a one-element array holding the value, as R's JSON writers send a length-one vector; an array of two or more is refused: it must be ";
+const LIST_NOTE: &str =
+    "Also accepted as one item alone, standing for a one-item list, as R's JSON writers send a length-one vector with `auto_unbox`.";
+
+/// A request schema whose properties accept what the decoder accepts by each field's [`Shape`]
+/// (`shapes`, from the request type): one value as `oneOf: [X, {type: array, items: X,
+/// minItems: 1, maxItems: 1}]`, a list as `oneOf: [list, item]`; `components` resolves a list
+/// property's reference to its item schema.
+pub fn lenient(schema: &RefOr<Schema>, shapes: &[(&str, Shape)], components: &BTreeMap<String, RefOr<Schema>>) -> RefOr<Schema> {
+    let mut json = serde_json::to_value(schema).expect("a schema serialises");
+    let Some(properties) = json.get_mut("properties").and_then(Value::as_object_mut) else {
+        panic!("a request schema is one object with properties");
+    };
+    for (field, shape) in shapes.iter().filter(|(_, shape)| *shape != Shape::AsIs) {
+        let Some(property) = properties.get_mut(*field) else {
+            panic!("{field} is a property of the request schema");
+        };
+        let Value::Object(mut p) = property.take() else {
+            panic!("{field}'s schema is an object");
+        };
+        let description = p.remove("description");
+        let default = p.remove("default");
+        let inner = match p.get("oneOf").and_then(Value::as_array) {
+            Some(items) if items.len() == 1 && p.len() == 1 => items[0].clone(),
+            _ => Value::Object(p),
+        };
+        let (variants, note) = match shape {
+            Shape::One => (
+                json!([inner, {"type": "array", "items": inner, "minItems": 1, "maxItems": 1}]),
+                format!("{ONE_NOTE}{ONE_VALUE}."),
+            ),
+            Shape::List => (json!([inner, list_item(&inner, components)]), LIST_NOTE.to_string()),
+            Shape::AsIs => unreachable!("left as it is"),
+        };
+        let said = description
+            .as_ref()
+            .and_then(Value::as_str)
+            .map_or(String::new(), |d| format!("{d}\n\n"));
+        *property = restore(json!({"oneOf": variants}), Some(json!(format!("{said}{note}"))), default);
+    }
+    serde_json::from_value(json).expect("a schema reads back")
+}
+
+/// A property's schema with its description and default put back.
+fn restore(inner: Value, description: Option<Value>, default: Option<Value>) -> Value {
+    let Value::Object(mut out) = inner else {
+        panic!("a property schema is an object");
+    };
+    out.extend(description.map(|d| ("description".to_string(), d)));
+    out.extend(default.map(|d| ("default".to_string(), d)));
+    Value::Object(out)
+}
+
+/// The item schema of a list property: the `items` of the list it is or refers to.
+fn list_item(list: &Value, components: &BTreeMap<String, RefOr<Schema>>) -> Value {
+    let resolved = match list.get("$ref").and_then(Value::as_str).and_then(|r| r.rsplit('/').next()) {
+        Some(name) => {
+            serde_json::to_value(components.get(name).unwrap_or_else(|| panic!("{name} is a component"))).expect("a schema serialises")
+        }
+        None => list.clone(),
+    };
+    resolved["items"].clone()
 }

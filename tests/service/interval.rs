@@ -265,10 +265,20 @@ async fn bad_resamples_are_422_at_resamples() {
     let app = TestApp::spawn_with(|c| c.limits.max_resamples = 1000).await;
     let data = json!([1, 2, 3, 4, 5]);
     // Values the schema refuses: no rule is named.
-    for r in [json!(0), json!(1), json!(-5), json!(2.5), json!("many"), json!(null), json!([100])] {
+    for r in [
+        json!(0),
+        json!(1),
+        json!(-5),
+        json!(2.5),
+        json!("many"),
+        json!(null),
+        json!([100, 200]),
+    ] {
         let v = invalid(post(&app, json!({"data": data, "resamples": r})).await, &["/resamples"]);
         assert_eq!(rule_at(&v, "/resamples"), None, "{r}: {v}");
     }
+    // One value in a one-element array (as R sends it) is read as the value, and named there.
+    invalid(post(&app, json!({"data": data, "resamples": [1]})).await, &["/resamples/0"]);
     // Above this server's limit: a rule beyond the schema.
     let v = invalid(post(&app, json!({"data": data, "resamples": 1001})).await, &["/resamples"]);
     assert_eq!(rule_at(&v, "/resamples").as_deref(), Some("resample_limit"), "{v}");

@@ -4,6 +4,8 @@
 //!
 //! - [`contract`]: the OpenAPI document, the parser, the catalogue and `docs/api.md` agree.
 //! - [`interval`]: `POST /v1/interval`, validation, problems, tokens, limits.
+//! - [`lenient`]: the forms R's JSON writer sends: one value as a one-element array, a list as
+//!   one item alone; data never unboxed; pointers that resolve in the body as sent.
 //! - [`bins`]: binned histograms: bad input, the statistics bins refuse, warnings, comparisons.
 //! - [`compare`]: `POST /v1/compare` and a batch's comparisons: verdicts, too few runs, exact
 //!   enumeration by default, pairs, tokens, validation, Bonferroni and Holm families.
@@ -28,6 +30,7 @@ mod contract;
 mod faults;
 mod golden;
 mod interval;
+mod lenient;
 mod process;
 mod service;
 mod svg;
