@@ -165,21 +165,13 @@ fn prepare_looking(
     started: Instant,
     deadline_cap: Option<Instant>,
 ) -> Result<(PreparedJob, Picture), Problem> {
-    prepare_as_sent(json, also, limits, started, deadline_cap).map_err(|p| fitted(p, json))
-}
-
-fn prepare_as_sent(
-    json: &Value,
-    also: &[&str],
-    limits: &Limits,
-    started: Instant,
-    deadline_cap: Option<Instant>,
-) -> Result<(PreparedJob, Picture), Problem> {
+    let fit = |p| fitted(p, json);
     let req = checked(
         json,
         |raw, errs| CompareRequest::decode(raw, "", also, errs),
         |r, raw, errs| r.check(raw, limits, errs),
-    )?;
+    )
+    .map_err(fit)?;
     let look = req.picture.clone();
     let raw = json.as_object().expect("an object");
     let asked = Asked {
@@ -198,7 +190,10 @@ fn prepare_as_sent(
     }
     // Unless told otherwise, enumerate where that is cheap; else draw the default number.
     if raw.contains_key("resamples") || r.token.is_some() || r.scheme != SchemeSpec::default() {
-        return Ok((job::prepare(&asked, Some(params), limits, started, deadline_cap)?, look));
+        return Ok((
+            job::prepare(&asked, Some(params), limits, started, deadline_cap).map_err(fit)?,
+            look,
+        ));
     }
     let drawn = params.clone();
     let mut exact = params;
@@ -212,7 +207,8 @@ fn prepare_as_sent(
             job::prepare(&asked, Some(drawn), limits, started, deadline_cap)
         }
         other => other,
-    }?;
+    }
+    .map_err(fit)?;
     Ok((job, look))
 }
 

@@ -163,28 +163,20 @@ fn prepare_looking(
     started: Instant,
     deadline_cap: Option<Instant>,
 ) -> Result<(PreparedJob, Picture), Problem> {
-    prepare_as_sent(json, also, limits, started, deadline_cap).map_err(|p| fitted(p, json))
-}
-
-fn prepare_as_sent(
-    json: &Value,
-    also: &[&str],
-    limits: &Limits,
-    started: Instant,
-    deadline_cap: Option<Instant>,
-) -> Result<(PreparedJob, Picture), Problem> {
+    let fit = |p| fitted(p, json);
     let req = checked(
         json,
         |raw, errs| IntervalRequest::decode(raw, "", also, errs),
         |r, raw, errs| r.check(raw, limits, errs),
-    )?;
+    )
+    .map_err(fit)?;
     let form = DataForm::of(&req.data.0);
     let asked = Asked {
         resampling: &req.resampling,
         samples: vec![(req.data.0, "/data", form)],
         comparing: None,
     };
-    Ok((job::prepare(&asked, None, limits, started, deadline_cap)?, req.picture))
+    Ok((job::prepare(&asked, None, limits, started, deadline_cap).map_err(fit)?, req.picture))
 }
 
 /// The response JSON of an interval job that ran.
