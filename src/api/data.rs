@@ -79,8 +79,7 @@ fn counts(v: Option<&Value>, at: &str, required: &str, errs: &mut Errors) -> Opt
         errs.push(at, required);
         return None;
     };
-    let lifted = lifted(v, &at).map(|x| x.into_iter().map(Value::from).collect::<Vec<_>>());
-    let Some(items) = lifted.as_ref().or(v.as_array()) else {
+    let Value::Array(items) = v else {
         errs.push(at, format!("must be an array of whole numbers; got {}", describe(v)));
         return None;
     };

@@ -36,9 +36,13 @@ impl Parsed {
 /// Parse a body as a JSON object, accepting bare `NaN`/`Infinity` only so as to name them in a
 /// 422.
 pub fn parse_json(body: &[u8]) -> Result<Parsed, Problem> {
-    let (body, lifted) = lift::lift(body);
-    let json = parse_tree(&body)?;
-    Ok(Parsed { json, lifted })
+    let (text, lifted) = lift::lift(body);
+    match parse_tree(&text) {
+        Ok(json) => Ok(Parsed { json, lifted }),
+        // The error's line and column must be those of the body as sent.
+        Err(e) if !lifted.is_empty() => Err(parse_tree(body).err().unwrap_or(e)),
+        Err(e) => Err(e),
+    }
 }
 
 fn parse_tree(body: &[u8]) -> Result<Value, Problem> {

@@ -7,8 +7,11 @@
 //! a member of a `columns` object) is parsed here, split over the pool's threads, and replaced by
 //! `[]` in the text the tree is built from; the decoder of those fields takes the numbers back by
 //! their JSON Pointer ([`take`]). Anything unusual (an element that is not a plain finite
-//! number, an escaped key, a key given twice, nesting deeper than serde_json allows, text that is
-//! not JSON) leaves the text as it was, so the ordinary path reads it and names what is wrong.
+//! number, an escaped key anywhere, a key given twice in an object, nesting deeper than
+//! serde_json allows, a pointer longer than [`MAX_POINTER_BYTES`], text that is not JSON) leaves
+//! the text as it was, so the ordinary path reads it and names what is wrong. The skim's own
+//! memory is linear in the body: keys are borrowed from it, and a pointer is built only for an
+//! array that is lifted.
 //! Both paths round each number to the nearest double, so they give the same bits.
 
 use std::borrow::Cow;
@@ -25,13 +28,18 @@ use super::problem::escape_token;
 pub const LIFT_FROM_BYTES: usize = 16 * 1024;
 
 /// The keys whose arrays hold data.
-const DATA_KEYS: [&str; 6] = ["data", "values", "counts", "edges", "baseline", "candidate"];
+/// (Not `counts`: whole numbers beyond 2^53 must reach their decoder exact, and named as sent.)
+const DATA_KEYS: [&str; 5] = ["data", "values", "edges", "baseline", "candidate"];
 
 /// The key of an object whose every member is a column of data.
 const COLUMNS: &str = "columns";
 
 /// serde_json refuses deeper nesting; the skim leaves such a body to it.
 const MAX_DEPTH: usize = 128;
+
+/// A lifted array's pointer is at most this long (one per 16 KiB of body at most, so their total
+/// stays a small multiple of the body).
+const MAX_POINTER_BYTES: usize = 256;
 
 /// A large array is parsed in pieces of about this many bytes, in parallel.
 const PIECE_BYTES: usize = 256 * 1024;
@@ -53,7 +61,6 @@ pub fn lift(body: &[u8]) -> (Cow<'_, [u8]>, Arc<Lifted>) {
         i: 0,
         path: Vec::new(),
         found: Vec::new(),
-        seen: HashSet::new(),
     };
     if skim.value(0).is_none() {
         return (Cow::Borrowed(body), Arc::default());
@@ -114,11 +121,9 @@ pub fn take(at: &str) -> Option<Vec<f64>> {
 }
 
 /// A place in the body.
-enum Segment {
-    Key(String),
+enum Segment<'a> {
+    Key(&'a str),
     Index(usize),
-    /// A key with escapes: nothing beneath it is lifted (the skim does not decode escapes).
-    Opaque,
 }
 
 /// An array to lift: its text from `[` to `]` inclusive.
@@ -132,13 +137,11 @@ struct Region {
 struct Skim<'a> {
     b: &'a [u8],
     i: usize,
-    path: Vec<Segment>,
+    path: Vec<Segment<'a>>,
     found: Vec<Region>,
-    /// Pointers of every value under a data key, to notice a key given twice.
-    seen: HashSet<String>,
 }
 
-impl Skim<'_> {
+impl<'a> Skim<'a> {
     fn ws(&mut self) {
         while self.b.get(self.i).is_some_and(|c| matches!(c, b' ' | b'\n' | b'\r' | b'\t')) {
             self.i += 1;
@@ -163,7 +166,7 @@ impl Skim<'_> {
     }
 
     /// Skip a string; its content when it has no escapes.
-    fn string(&mut self) -> Option<Option<&str>> {
+    fn string(&mut self) -> Option<Option<&'a str>> {
         let start = self.i + 1;
         let mut escaped = false;
         let mut j = start;
@@ -178,7 +181,7 @@ impl Skim<'_> {
             }
         }
         self.i = j + 1;
-        let content = &self.b[start..j];
+        let content: &'a [u8] = &self.b[start..j];
         Some(if escaped { None } else { Some(std::str::from_utf8(content).ok()?) })
     }
 
@@ -189,21 +192,24 @@ impl Skim<'_> {
             self.i += 1;
             return Some(());
         }
+        // The skim does not decode escapes, so it cannot tell an escaped key from a plain one:
+        // a body with one is left whole to the ordinary reader, as is one with a key twice.
+        let mut keys = HashSet::new();
         loop {
             self.ws();
             if self.b.get(self.i) != Some(&b'"') {
                 return None;
             }
-            let key = self.string()?.map(str::to_string);
+            let key = self.string()??;
+            if !keys.insert(key) {
+                return None;
+            }
             self.ws();
             if self.b.get(self.i) != Some(&b':') {
                 return None;
             }
             self.i += 1;
-            self.path.push(key.map_or(Segment::Opaque, Segment::Key));
-            if self.holds_data() && !self.seen.insert(self.pointer()?) {
-                return None;
-            }
+            self.path.push(Segment::Key(key));
             self.value(depth + 1)?;
             self.path.pop();
             self.ws();
@@ -222,13 +228,12 @@ impl Skim<'_> {
         if self.holds_data() {
             let rest = &self.b[self.i + 1..];
             if let Some(close) = memchr::memchr(b']', rest) {
-                if close + 2 >= LIFT_FROM_BYTES && memchr::memchr3(b'[', b'{', b'"', &rest[..close]).is_none() {
+                let pointer = (close + 2 >= LIFT_FROM_BYTES && memchr::memchr3(b'[', b'{', b'"', &rest[..close]).is_none())
+                    .then(|| self.pointer())
+                    .flatten();
+                if let Some(pointer) = pointer {
                     let (start, end) = (self.i, self.i + close + 2);
-                    self.found.push(Region {
-                        start,
-                        end,
-                        pointer: self.pointer()?,
-                    });
+                    self.found.push(Region { start, end, pointer });
                     self.i = end;
                     return Some(());
                 }
@@ -258,23 +263,23 @@ impl Skim<'_> {
     /// Whether the value at the current path is where data goes.
     fn holds_data(&self) -> bool {
         match self.path.as_slice() {
-            [.., Segment::Key(parent), Segment::Key(_)] if parent == COLUMNS => true,
-            [.., Segment::Key(key)] => DATA_KEYS.contains(&key.as_str()),
+            [.., Segment::Key(parent), Segment::Key(_)] if *parent == COLUMNS => true,
+            [.., Segment::Key(key)] => DATA_KEYS.contains(key),
             _ => false,
         }
     }
 
-    /// The current path as a JSON Pointer; `None` beneath an escaped key.
+    /// The current path as a JSON Pointer; `None` if longer than [`MAX_POINTER_BYTES`].
     fn pointer(&self) -> Option<String> {
         let mut out = String::new();
         for s in &self.path {
             match s {
-                Segment::Key(k) => out.push_str(&format!("/{}", escape_token(k))),
+                Segment::Key(k) if out.len() + k.len() < MAX_POINTER_BYTES => out.push_str(&format!("/{}", escape_token(k))),
+                Segment::Key(_) => return None,
                 Segment::Index(i) => out.push_str(&format!("/{i}")),
-                Segment::Opaque => return None,
             }
         }
-        Some(out)
+        (out.len() <= MAX_POINTER_BYTES).then_some(out)
     }
 }
 
@@ -421,8 +426,10 @@ mod tests {
 
     #[test]
     fn only_data_places_are_lifted_and_pointers_are_exact() {
-        let (x, _) = long("\"labels\"", 5000);
-        assert!(lift(x.as_bytes()).1.is_empty(), "labels are not data");
+        for key in ["\"labels\"", "\"counts\""] {
+            let (x, _) = long(key, 5000);
+            assert!(lift(x.as_bytes()).1.is_empty(), "{key} is left to its decoder");
+        }
         let (column, data) = long("\"a/b\"", 5000);
         let body = format!("{{\"jobs\": [{{\"kind\": \"interval\", \"data\": {{\"columns\": {column}}}}}]}}");
         let (_, lifted) = lift(body.as_bytes());
@@ -442,11 +449,21 @@ mod tests {
             ok.replacen("\"data\"", "\"d\\u0061ta\"", 1),
             ok.replacen('}', "", 1),
             ok.replacen(',', ",[1],", 1),
+            // A key escaped anywhere (here one that decodes to a second `data`), or repeated.
+            ok.replacen("{", "{\"d\\u0061ta\": [], ", 1),
+            ok.replacen("{", "{\"x\": {\"y\": 1, \"y\": 2}, ", 1),
+            // A pointer too long to keep.
+            ok.replacen("{", &format!("{{\"{}\": {{", "k".repeat(MAX_POINTER_BYTES)), 1) + "}",
         ];
         for (k, body) in unusual.iter().enumerate() {
             let (text, lifted) = lift(body.as_bytes());
             assert!(lifted.is_empty() && text.as_ref() == body.as_bytes(), "case {k}");
         }
+        // Many data keys under one long key: the skim builds no pointer for them (this took
+        // gigabytes when every data key's pointer was kept).
+        let columns: Vec<String> = (0..6000).map(|i| format!("\"c{i}\": 0")).collect();
+        let wide = format!("{{\"{}\": {{\"columns\": {{{}}}}}}}", "k".repeat(300_000), columns.join(","));
+        assert!(lift(wide.as_bytes()).1.is_empty());
         let deep = format!("{}{}", "[".repeat(10_000), "]".repeat(10_000));
         assert!(lift(deep.as_bytes()).1.is_empty(), "no stack overflow");
     }

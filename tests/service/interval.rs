@@ -1257,3 +1257,15 @@ async fn a_bad_element_of_a_large_array_is_still_named() {
     );
     invalid(post_raw_json(&app, &counts).await, &["/data/counts/5999"]);
 }
+
+#[tokio::test]
+async fn a_syntax_error_after_a_large_array_names_its_place_in_the_body_as_sent() {
+    let app = TestApp::spawn().await;
+    let x: Vec<String> = sample(6000).iter().map(f64::to_string).collect();
+    let body = format!("{{\"data\": [{}], \"levels\": tru}}", x.join(","));
+    let column = body.find("tru}").unwrap() + 1;
+    let v = problem(post_raw_json(&app, &body).await, 400, "malformed-json");
+    let detail = v["detail"].as_str().unwrap();
+    let at = format!("column {}", column + 3);
+    assert!(detail.contains(&at), "{detail} should name {at}");
+}
