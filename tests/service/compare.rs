@@ -953,3 +953,24 @@ async fn a_ratio_needs_a_positive_baseline_and_a_candidate_of_0_or_more() {
         assert!(num(i, "/lower") >= 0.0, "no negative ratio: {i}");
     }
 }
+
+/// Found by the fuzz run: a paired ratio whose baseline has a value near zero makes replicates
+/// near 1e160, and the normal and BCa endpoints' Monte Carlo errors squared them into infinity
+/// (a 500). They are computed scaled now, and stay finite and positive.
+#[tokio::test]
+async fn a_ratio_over_a_baseline_near_zero_keeps_every_monte_carlo_error_finite() {
+    let app = TestApp::spawn().await;
+    let body = json!({"baseline": [5, 9.657329225511568e-161, 7, 8], "candidate": [5.5, 6.1, 7.3, 8.2],
+        "paired": true, "resamples": 100, "seed": 1, "methods": ["percentile", "normal", "bca", "basic"]});
+    let v = ok(compare(&app, body).await);
+    let intervals = v["contrast"]["intervals"].as_array().unwrap();
+    assert_eq!(intervals.len(), 4);
+    for i in intervals {
+        for end in ["lower_mc_error", "upper_mc_error"] {
+            let e = i[end].as_f64().unwrap();
+            assert!(e.is_finite() && e >= 0.0, "{i}");
+        }
+    }
+    // The replicates reach ~6e160, so the upper endpoints' errors are that large, not zero.
+    assert!(intervals.iter().any(|i| i["upper_mc_error"].as_f64().unwrap() > 1e150), "{v}");
+}

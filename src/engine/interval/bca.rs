@@ -133,7 +133,14 @@ fn endpoint_mc_error(dist: &ReplicateDistribution, zq: f64, level: f64, c: &BcaC
     let p = normal_dist::cdf(c.z0);
     let var_z0 = p * (1.0 - p) / (b * normal_dist::density(c.z0).powi(2));
     let z0_part = slope * normal_dist::density(w) * dw_dz0 * var_z0.sqrt();
-    (quantile_part * quantile_part + z0_part * z0_part).sqrt()
+    let error = (quantile_part * quantile_part + z0_part * z0_part).sqrt();
+    // The squares of a huge contrast's errors (a ratio over a baseline near zero) can overflow:
+    // then hypot, which does not (only then, so that every other result keeps its bits).
+    if error.is_finite() {
+        error
+    } else {
+        quantile_part.hypot(z0_part)
+    }
 }
 
 pub fn interval(dist: &ReplicateDistribution, c: &BcaConstants, level: f64) -> Endpoints {

@@ -18,10 +18,23 @@ pub fn interval(estimate: f64, bias: f64, se: f64, bias_mc: f64, se_mc: f64, dis
     let (lower_mc_error, upper_mc_error) = if dist.is_exact() {
         (0.0, 0.0)
     } else {
-        let cov = dist.skewness() * se * se / (2.0 * dist.len() as f64);
-        let base = bias_mc * bias_mc + z * z * se_mc * se_mc;
-        // lower = centre − z·se: cov(−b, −z·se) = +z·cov; upper: −z·cov.
-        ((base + 2.0 * z * cov).max(0.0).sqrt(), (base - 2.0 * z * cov).max(0.0).sqrt())
+        let errors = |k: f64| {
+            let (se, bias_mc, se_mc) = (se / k, bias_mc / k, se_mc / k);
+            let cov = dist.skewness() * se * se / (2.0 * dist.len() as f64);
+            let base = bias_mc * bias_mc + z * z * se_mc * se_mc;
+            // lower = centre − z·se: cov(−b, −z·se) = +z·cov; upper: −z·cov.
+            (
+                k * (base + 2.0 * z * cov).max(0.0).sqrt(),
+                k * (base - 2.0 * z * cov).max(0.0).sqrt(),
+            )
+        };
+        // The squares of a huge contrast's errors (a ratio over a baseline near zero) can
+        // overflow: then in units of the largest of the three (only then, so that every other
+        // result keeps its bits).
+        match errors(1.0) {
+            (l, u) if l.is_finite() && u.is_finite() => (l, u),
+            _ => errors(se.abs().max(bias_mc).max(se_mc)),
+        }
     };
     Endpoints {
         lower: centre - z * se,
