@@ -56,6 +56,9 @@ pub struct Outcome {
     pub peak: usize,
 }
 
+/// How an allocation-bound failure starts, so the run can tell it from the others.
+pub const HELD: &str = "held";
+
 /// Handle a body as the route of `target` would, and check the answer.
 pub fn handle(target: Target, body: &[u8]) -> Result<Outcome, String> {
     let limits = limits();
@@ -71,7 +74,7 @@ pub fn handle(target: Target, body: &[u8]) -> Result<Outcome, String> {
     let limit = bound(body.len());
     if peak > limit {
         return Err(format!(
-            "held {peak} bytes at once, above the bound of {limit} for a body of {} bytes",
+            "{HELD} {peak} bytes at once, above the bound of {limit} for a body of {} bytes",
             body.len()
         ));
     }
