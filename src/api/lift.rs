@@ -380,6 +380,7 @@ mod tests {
     }
 
     #[test]
+    // The reference is serde_json 1 with `float_roundtrip` (correct rounding), the ordinary path.
     fn a_long_data_array_is_lifted_with_the_same_bits_as_serde_json_reads() {
         let (body, _) = long("\"data\"", 5000);
         let (text, lifted) = lift(body.as_bytes());

@@ -346,6 +346,15 @@ pub fn pointers(problem: &Value) -> Vec<String> {
         .unwrap_or_default()
 }
 
+/// The value of an unlabelled metric line `name value`.
+pub fn metric(text: &str, name: &str) -> f64 {
+    let line = text
+        .lines()
+        .find(|l| l.split_whitespace().next() == Some(name))
+        .unwrap_or_else(|| panic!("no {name} in\n{text}"));
+    line.split_whitespace().last().unwrap().parse().unwrap()
+}
+
 /// Remove the timing fields (at any depth: a comparison's contrast and a batch's results carry
 /// their own), the only ones that may differ between identical computations.
 pub fn without_timing(mut v: Value) -> Value {

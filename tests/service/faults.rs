@@ -9,6 +9,7 @@ use std::time::{Duration, Instant};
 
 use serde_json::{json, Value};
 
+use crate::common::metric;
 use crate::process::{start, Server};
 
 /// What a hang looks like: far beyond any answer the tests wait for.
@@ -23,15 +24,6 @@ fn get_text(rt: &tokio::runtime::Runtime, url: &str) -> (u16, String) {
         let r = reqwest::get(url).await.unwrap();
         (r.status().as_u16(), r.text().await.unwrap())
     })
-}
-
-/// The value of an unlabelled metric line `name value`.
-fn metric(text: &str, name: &str) -> f64 {
-    let line = text
-        .lines()
-        .find(|l| l.split_whitespace().next() == Some(name))
-        .unwrap_or_else(|| panic!("no {name} in\n{text}"));
-    line.split_whitespace().last().unwrap().parse().unwrap()
 }
 
 /// Poll `/metrics` until `name` reads `value`; how long that took.

@@ -11,7 +11,7 @@ use bandsaw::engine::statistic::StatisticSpec;
 use bandsaw::telemetry::Metrics;
 use serde_json::{json, Value};
 
-use crate::common::{invalid, message_at, pointers, problem, rule_at, without_timing, TestApp};
+use crate::common::{invalid, message_at, metric, pointers, problem, rule_at, without_timing, TestApp};
 
 /// Invented page load times (ms) of 200 visits.
 fn page_loads(n: usize) -> Vec<f64> {
@@ -30,15 +30,6 @@ async fn metrics_text(app: &TestApp) -> String {
         .text()
         .await
         .unwrap()
-}
-
-/// The value of an unlabelled metric line `name value`.
-fn metric(text: &str, name: &str) -> f64 {
-    let line = text
-        .lines()
-        .find(|l| l.split_whitespace().next() == Some(name))
-        .unwrap_or_else(|| panic!("no {name} in\n{text}"));
-    line.split_whitespace().last().unwrap().parse().unwrap()
 }
 
 /// A request that keeps one compute thread busy for a while (median, nested studentized).
