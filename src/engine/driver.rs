@@ -390,8 +390,15 @@ impl Prepared {
         Ok(self.outcome(&reps, summary, stop, jack))
     }
 
-    /// BCa's jackknife: the acceleration and how it was computed.
+    /// BCa's jackknife: the acceleration and how it was computed. A leave-out value the
+    /// statistic does not define (a ratio whose baseline mean is zero without one of its
+    /// observations) leaves the acceleration undefined: BCa then goes without it, as when no
+    /// jackknife can be had, and the warning says so.
     fn jackknife(&self, budget: &Budget) -> Result<Option<JackknifeFacts>, RunError> {
+        Ok(self.jackknife_facts(budget)?.filter(|j| j.acceleration.is_finite()))
+    }
+
+    fn jackknife_facts(&self, budget: &Budget) -> Result<Option<JackknifeFacts>, RunError> {
         let stop = || budget.exhausted();
         let stopped = |_| {
             if budget.cancelled() {

@@ -116,11 +116,15 @@ fn requests_are_answered_or_refused_with_a_valid_problem() {
                 let (small, why) = shrink(tree, first);
                 let body = small.body();
                 let shown = String::from_utf8_lossy(&body[..body.len().min(2000)]).into_owned();
+                // The whole body, for replaying it by hand (the message shows its start only).
+                let kept = std::env::temp_dir().join("bandsaw-fuzz-failure.json");
+                let _ = std::fs::write(&kept, &body);
                 panic!(
-                    "seed {seed}, after {} cases: {:?} {why}\nbody ({} bytes): {shown}",
+                    "seed {seed}, after {} cases: {:?} {why}\nbody ({} bytes, all of it in {}): {shown}",
                     tally.cases,
                     small.target,
-                    body.len()
+                    body.len(),
+                    kept.display()
                 );
             }
         }

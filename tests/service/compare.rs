@@ -974,3 +974,39 @@ async fn a_ratio_over_a_baseline_near_zero_keeps_every_monte_carlo_error_finite(
     // The replicates reach ~6e160, so the upper endpoints' errors are that large, not zero.
     assert!(intervals.iter().any(|i| i["upper_mc_error"].as_f64().unwrap() > 1e150), "{v}");
 }
+
+/// Found by the fuzz run: one candidate value near 8e18 among 2199 near 70. Leaving it out of
+/// the candidate's mean must give the others' mean (about 70); the plain centred sums lost the
+/// small values to rounding and gave a negative mean, whose ratio is undefined, and BCa's
+/// endpoints came out undefined (a 500). With compensated sums the acceleration is defined.
+#[tokio::test]
+async fn one_value_that_dwarfs_the_rest_leaves_the_bca_acceleration_defined() {
+    let app = TestApp::spawn().await;
+    let small = |k: u64| (0..2199u64).map(move |i| k as f64 + ((i * 37) % 1000) as f64 / 7.0);
+    let mut candidate: Vec<f64> = small(1).collect();
+    candidate.push(8_301_972_324_654_488_187.0);
+    let baseline: Vec<f64> = small(0).collect();
+    let body = json!({"baseline": baseline, "candidate": candidate, "contrast": "ratio",
+        "resamples": 100, "seed": 1, "methods": ["bca"]});
+    let v = ok(compare(&app, body).await);
+    let a = num(&v, "/contrast/diagnostics/acceleration");
+    assert!(a.is_finite() && a != 0.0, "{v}");
+    assert!(!warning_codes(&v).contains(&"bca_without_acceleration".to_string()), "{v}");
+    assert!(num(&v, "/contrast/intervals/0/lower") <= num(&v, "/contrast/intervals/0/upper"));
+}
+
+/// A ratio whose baseline has one positive value: without it the baseline's mean is zero and
+/// the ratio undefined, so the jackknife cannot give an acceleration. BCa goes without it and
+/// says so, as when no jackknife can be had, rather than returning undefined endpoints.
+#[tokio::test]
+async fn an_undefined_leave_out_ratio_leaves_bca_without_acceleration() {
+    let app = TestApp::spawn().await;
+    let body = json!({"baseline": [0, 0, 0, 0, 0, 0, 0, 4], "candidate": [3, 5, 4, 6, 5, 4, 3, 5],
+        "contrast": "ratio", "resamples": 200, "seed": 1, "methods": ["bca", "percentile"]});
+    let v = ok(compare(&app, body).await);
+    assert!(warning_codes(&v).contains(&"bca_without_acceleration".to_string()), "{v}");
+    assert_eq!(num(&v, "/contrast/diagnostics/acceleration"), 0.0);
+    for i in v["contrast"]["intervals"].as_array().unwrap() {
+        assert!(num(i, "/lower").is_finite() && num(i, "/upper").is_finite(), "{i}");
+    }
+}
