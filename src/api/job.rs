@@ -166,12 +166,17 @@ pub fn prepare(
     let deadline = deadline_cap.map_or(own, |cap| cap.min(own));
     let job = request::job(&params, samples(asked, &params, comparing), seed, r.on_time_limit, limits, replay);
     let places: Vec<(&str, DataForm)> = asked.samples.iter().map(|(_, at, form)| (*at, *form)).collect();
-    let prepared = driver::prepare(job).map_err(|e| refusal(e, own_ms, &places))?;
+    // The digests (a pass over the data on one thread) are taken while the layout sorts it.
+    let (prepared, digests) = rayon::join(
+        || driver::prepare(job),
+        || asked.samples.iter().map(|(s, _, _)| s.digest()).collect(),
+    );
+    let prepared = prepared.map_err(|e| refusal(e, own_ms, &places))?;
     Ok(PreparedJob {
         prepared,
         params,
         comparing,
-        digests: asked.samples.iter().map(|(s, _, _)| s.digest()).collect(),
+        digests,
         sizes: asked.samples.iter().map(|(s, _, _)| s.n()).collect(),
         deadline,
         time_limit_ms: deadline.saturating_duration_since(started).as_millis() as u64,
