@@ -174,14 +174,14 @@ fn prepare_looking(
     .map_err(fit)?;
     let look = req.picture.clone();
     let raw = json.as_object().expect("an object");
-    let asked = Asked {
-        resampling: &req.resampling,
-        samples: vec![
+    let asked = Asked::new(
+        &req.resampling,
+        vec![
             (req.baseline.0.clone(), "/baseline", DataForm::of(&req.baseline.0)),
             (req.candidate.0.clone(), "/candidate", DataForm::of(&req.candidate.0)),
         ],
-        comparing: Some(req.comparing()),
-    };
+        Some(req.comparing()),
+    );
     let r = &req.resampling;
     let mut params = r.params();
     // The analytic standard error assumes independent rows: iid or bayesian only.

@@ -175,11 +175,7 @@ fn prepare_looking(
     )
     .map_err(fit)?;
     let form = DataForm::of(&req.data.0);
-    let asked = Asked {
-        resampling: &req.resampling,
-        samples: vec![(req.data.0, "/data", form)],
-        comparing: None,
-    };
+    let asked = Asked::new(&req.resampling, vec![(req.data.0, "/data", form)], None);
     Ok((job::prepare(&asked, None, limits, started, deadline_cap).map_err(fit)?, req.picture))
 }
 

@@ -3,7 +3,7 @@
 //! why the engine refused it. Every refusal happens in [`prepare`], before any resampling.
 
 use std::sync::atomic::AtomicBool;
-use std::sync::Arc;
+use std::sync::{Arc, OnceLock};
 use std::time::{Duration, Instant};
 
 use rand::Rng;
@@ -33,6 +33,26 @@ pub struct Asked<'a> {
     /// Each sample with its pointer (`/data`, `/baseline`, `/candidate`) and form.
     pub samples: Vec<(Sample, &'static str, DataForm)>,
     pub comparing: Option<Comparing>,
+    /// The samples' digests, taken once however many times the job is prepared (a comparison
+    /// tries exact enumeration first) and whether or not a token is checked against them.
+    digests: OnceLock<Vec<[u8; 32]>>,
+}
+
+impl<'a> Asked<'a> {
+    pub fn new(resampling: &'a Resampling, samples: Vec<(Sample, &'static str, DataForm)>, comparing: Option<Comparing>) -> Self {
+        Asked {
+            resampling,
+            samples,
+            comparing,
+            digests: OnceLock::new(),
+        }
+    }
+
+    /// Each sample's SHA-256 ([`Sample::digest`]), baseline first.
+    fn digests(&self) -> &[[u8; 32]] {
+        self.digests
+            .get_or_init(|| self.samples.iter().map(|(s, _, _)| s.digest()).collect())
+    }
 }
 
 /// A job that passed every check, ready to run.
@@ -97,7 +117,7 @@ fn replayed(t: &str, asked: &Asked, limits: &Limits) -> Result<(Params, Option<C
             "was issued for the other route (an interval, or a comparison); send it where it came from".into(),
         ));
     }
-    let digests: Vec<String> = asked.samples.iter().map(|(s, _, _)| token::hex(&s.digest())).collect();
+    let digests: Vec<String> = asked.digests().iter().map(|d| token::hex(d)).collect();
     if body.data != digests {
         return Err(Problem::data_mismatch());
     }
@@ -167,10 +187,7 @@ pub fn prepare(
     let job = request::job(&params, samples(asked, &params, comparing), seed, r.on_time_limit, limits, replay);
     let places: Vec<(&str, DataForm)> = asked.samples.iter().map(|(_, at, form)| (*at, *form)).collect();
     // The digests (a pass over the data on one thread) are taken while the layout sorts it.
-    let (prepared, digests) = rayon::join(
-        || driver::prepare(job),
-        || asked.samples.iter().map(|(s, _, _)| s.digest()).collect(),
-    );
+    let (prepared, digests) = rayon::join(|| driver::prepare(job), || asked.digests().to_vec());
     let prepared = prepared.map_err(|e| refusal(e, own_ms, &places))?;
     Ok(PreparedJob {
         prepared,

@@ -1001,12 +1001,35 @@ async fn one_value_that_dwarfs_the_rest_leaves_the_bca_acceleration_defined() {
 #[tokio::test]
 async fn an_undefined_leave_out_ratio_leaves_bca_without_acceleration() {
     let app = TestApp::spawn().await;
-    let body = json!({"baseline": [0, 0, 0, 0, 0, 0, 0, 4], "candidate": [3, 5, 4, 6, 5, 4, 3, 5],
-        "contrast": "ratio", "resamples": 200, "seed": 1, "methods": ["bca", "percentile"]});
-    let v = ok(compare(&app, body).await);
-    assert!(warning_codes(&v).contains(&"bca_without_acceleration".to_string()), "{v}");
-    assert_eq!(num(&v, "/contrast/diagnostics/acceleration"), 0.0);
-    for i in v["contrast"]["intervals"].as_array().unwrap() {
-        assert!(num(i, "/lower").is_finite() && num(i, "/upper").is_finite(), "{i}");
+    // Unpaired (each sample's jackknife apart) and paired (pairs left out) alike.
+    for paired in [false, true] {
+        let body = json!({"baseline": [0, 0, 0, 0, 0, 0, 0, 4], "candidate": [3, 5, 4, 6, 5, 4, 3, 5],
+            "contrast": "ratio", "paired": paired, "resamples": 200, "seed": 1, "methods": ["bca", "percentile"]});
+        let v = ok(compare(&app, body).await);
+        assert!(
+            warning_codes(&v).contains(&"bca_without_acceleration".to_string()),
+            "paired {paired}: {v}"
+        );
+        assert_eq!(num(&v, "/contrast/diagnostics/acceleration"), 0.0);
+        for i in v["contrast"]["intervals"].as_array().unwrap() {
+            assert!(num(i, "/lower").is_finite() && num(i, "/upper").is_finite(), "{i}");
+        }
     }
+}
+
+/// One sample: a correlation whose x is constant once its one non-zero row is left out has an
+/// undefined jackknife value, so BCa goes without the acceleration and says so.
+#[tokio::test]
+async fn an_undefined_leave_out_correlation_leaves_bca_without_acceleration() {
+    let app = TestApp::spawn().await;
+    let body = json!({"data": {"columns": {"x": [0, 0, 0, 0, 0, 0, 0, 1], "y": [3, 5, 4, 6, 5, 4, 3, 9]}},
+        "statistic": {"name": "correlation", "x": "x", "y": "y"}, "resamples": 200, "seed": 1, "methods": ["bca"]});
+    let v = ok(app.post("/v1/interval", &body).await);
+    let codes: Vec<&str> = v["diagnostics"]["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|w| w["code"].as_str())
+        .collect();
+    assert!(codes.contains(&"bca_without_acceleration"), "{v}");
 }

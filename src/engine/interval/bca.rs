@@ -31,11 +31,14 @@ pub fn z0(dist: &ReplicateDistribution, estimate: f64) -> (f64, bool) {
 
 /// Acceleration from jackknife values θ₍ᵢ₎ with multiplicities cᵢ (Efron & Tibshirani 1993,
 /// eq. 14.15): a = Σcᵢdᵢ³ / (6 (Σcᵢdᵢ²)^{3/2}), dᵢ = θ₍·₎ − θ₍ᵢ₎. Zero when the jackknife values
-/// do not vary.
+/// do not vary; undefined (NaN) when one of them is, so that the caller goes without it.
 ///
 /// a does not change when every dᵢ is scaled, so the dᵢ are divided by the largest |dᵢ| first:
 /// cubes of large influences would otherwise overflow.
 pub fn acceleration(values: &[f64], multiplicity: &[f64]) -> f64 {
+    if values.iter().any(|v| !v.is_finite()) {
+        return f64::NAN;
+    }
     let total: f64 = multiplicity.iter().sum();
     let mean = values.iter().zip(multiplicity).map(|(v, c)| v * c).sum::<f64>() / total;
     let scale = values.iter().map(|v| (mean - v).abs()).fold(0.0, f64::max);
@@ -64,8 +67,12 @@ pub fn acceleration(values: &[f64], multiplicity: &[f64]) -> f64 {
 /// [`acceleration`]. The influences of all samples are divided by their largest magnitude
 /// first, as there (a does not change), so no cube overflows. [`acceleration`] is not written
 /// as this with one sample: the two agree to rounding (a unit test holds them together), but
-/// not bit for bit, and one-sample responses are pinned bit for bit.
+/// not bit for bit, and one-sample responses are pinned bit for bit. Undefined (NaN) when a
+/// jackknife value is, as there.
 pub fn acceleration_of_samples(samples: &[(&[f64], &[f64])]) -> f64 {
+    if samples.iter().any(|(values, _)| values.iter().any(|v| !v.is_finite())) {
+        return f64::NAN;
+    }
     // U/n = (n − 1)/n · (θ̄ − θ₍ᵢ₎) for every observation of every sample.
     let influence: Vec<(Vec<f64>, &[f64])> = samples
         .iter()

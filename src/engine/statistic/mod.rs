@@ -518,19 +518,25 @@ pub(crate) fn weighted_plugin_variance(x: &[f64], w: &[f64]) -> f64 {
 
 /// Leave-one-out means in O(n): removing one observation of unit j gives (S − x_j)/(N − 1).
 /// Computed on centred values so that large offsets do not cancel. The centred sum is
-/// compensated: when one value dwarfs the rest (10¹⁹ among values near 100), the plain mean
-/// loses the small values and the plain centred sum's rounding (thousands) swamps what is left
-/// when the large value is left out, which could come out negative for positive data.
+/// compensated: when one value dwarfs the rest (10¹⁹ among values near 100), the plain centred
+/// sum's rounding (thousands) swamps what is left when the large value is left out, which came
+/// out negative for positive data. What remains is about a rounding of the mean (ulp(m), which
+/// can still exceed the others' mean when the large value is 10²² or more), so each result is
+/// also held within the values' range, where a mean of some of them lies.
 pub(crate) fn jackknife_means(x: &[f64], base: &[f64]) -> Vec<f64> {
     let n: f64 = base.iter().sum();
     let m = weighted_mean(x, base);
     let s = compensated_sum(x.iter().zip(base).map(|(xi, wi)| wi * (xi - m)));
-    x.iter().map(|xi| m + (s - (xi - m)) / (n - 1.0)).collect()
+    let (lo, hi) = x
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| (lo.min(*v), hi.max(*v)));
+    x.iter().map(|xi| (m + (s - (xi - m)) / (n - 1.0)).clamp(lo, hi)).collect()
 }
 
 /// A sum with Neumaier's compensation (Neumaier 1974, ZAMM 54; the improved Kahan–Babuška
-/// summation): the rounding error of each addition is carried and added back at the end, so
-/// the result is good to about one rounding of the true sum whatever the terms' sizes.
+/// summation): the rounding error of each addition is carried and added back at the end. Its
+/// error is about 2ε|S| plus a term of order nε²Σ|tᵢ|, so a sum that cancels (as a centred sum
+/// does) keeps what the large terms would otherwise hide, up to that second term.
 pub(crate) fn compensated_sum(terms: impl Iterator<Item = f64>) -> f64 {
     let (mut sum, mut carry) = (0.0_f64, 0.0_f64);
     for t in terms {
@@ -585,10 +591,16 @@ pub(crate) mod tests {
         let others = x.iter().sum::<f64>() / x.len() as f64;
         x.push(8.3e18);
         let jack = jackknife_means(&x, &vec![1.0; x.len()]);
-        // The others' sum (~1.6e5) is exact to ~1e-11 summed alone; left out of a total of
-        // ~8.3e18 it is found to within a rounding of the large value (1024) over n − 1 = 2199,
-        // about 0.5, so 1 is a bound it keeps.
+        // The result is m + q with m ≈ 3.8e15, so it comes in steps of ulp(m) = 0.5, and three
+        // roundings of at most about 0.25 each reach it (the centred terms, s − (x_j − m) with
+        // half an ulp of 8.3e18 over n − 1 = 2199, and the division): under 1 in all. The
+        // others' mean summed alone is good to ~1e-11.
         assert!((jack[2199] - others).abs() < 1.0, "{} vs {others}", jack[2199]);
+        // At 1e22 the rounding of the mean (ulp 2^21 at ~4.5e18) dwarfs the others' mean: the
+        // result is held within the data's range, never negative for positive data.
+        x[2199] = 1e22;
+        let jack = jackknife_means(&x, &vec![1.0; x.len()]);
+        assert!(jack.iter().all(|v| (1.0..=1e22).contains(v)), "{:?}", jack[2199]);
     }
 
     /// One valid spec of every statistic, for tests that go through the whole catalogue.
