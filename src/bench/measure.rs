@@ -82,7 +82,7 @@ fn pool(threads: usize) -> Result<ThreadPool, String> {
 }
 
 /// Rows drawn below [`CEILING_RANGE`] on this thread for about `seconds`, as the kernels draw
-/// them ([`rows`]: Lemire's bounded draw on half-words), a replicate's worth from each stream
+/// them ([`rows`]: Lemire's bounded draw on half-words, k-bit fields in chunks of 2^k rows), a replicate's worth from each stream
 /// in turn, with nothing done with them but folding every candidate into an accumulator that
 /// goes through `black_box`, so that no draw can be optimised away.
 pub fn ceiling(seconds: f64) -> Ceiling {

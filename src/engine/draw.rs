@@ -148,14 +148,30 @@ impl<F: FnMut(usize, f64, usize)> Take for F {
 /// rather than per draw; a half is rejected with probability threshold/2^16 (about 8 % for
 /// 10⁴ rows), which keeps every row exactly uniform. The rows are the first `count` accepted
 /// halves; a half left over in the last word is not used.
+///
+/// A chunk of 2^8 to 2^12 rows takes its rows as that many bits of 64-bit words instead
+/// ([`packed`]): 5 to 8 rows a word where halves give 4, which made a batch of 200 series of
+/// 2000 rows about a quarter faster. Larger powers of two fit 4 to a word either way and keep
+/// the halves.
 #[inline]
 pub fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u64, take: T) -> T {
     debug_assert!(len > 0 && len <= 1 << 16);
     let range = len as u32;
     let threshold = ((1u32 << 16) - range) % range;
-    // A power-of-two range (every full chunk) rejects nothing: its loop needs no weights.
+    // A power-of-two range (every full chunk) rejects nothing: its rows are k-bit fields of
+    // 64-bit words, as many to a word as fit, and its loop needs no weights.
     let (take, left) = if threshold == 0 {
-        pairs::<T, false>(rng, start, range, 0, count, take)
+        return match range.trailing_zeros() {
+            8 => packed::<T, 8>(rng, start, count, take),
+            9 => packed::<T, 9>(rng, start, count, take),
+            10 => packed::<T, 10>(rng, start, count, take),
+            11 => packed::<T, 11>(rng, start, count, take),
+            12 => packed::<T, 12>(rng, start, count, take),
+            _ => {
+                let (take, left) = pairs::<T, false>(rng, start, range, 0, count, take);
+                last(rng, start, range, 0, left, take)
+            }
+        };
     } else {
         pairs::<T, true>(rng, start, range, threshold, count, take)
     };
@@ -194,6 +210,30 @@ fn pairs<T: Take, const REJECTS: bool>(
         }
     }
     (take, left)
+}
+
+/// `count` rows of a chunk of 2^K rows: each row is K bits of a 64-bit word, ⌊64/K⌋ rows a
+/// word (6 for 1024 rows where half-words give 4), every one exactly uniform with no rejection;
+/// the bits left over in a word are not used.
+#[inline]
+fn packed<T: Take, const K: u32>(rng: &mut ChaCha8Rng, start: usize, count: u64, mut take: T) -> T {
+    let per_word = 64 / K;
+    let mask = (1u64 << K) - 1;
+    let mut left = count;
+    while left >= u64::from(per_word) {
+        let word = rng.next_u64();
+        for j in 0..per_word {
+            take.take(start + ((word >> (j * K)) & mask) as usize, 1.0, (j as usize) % LANES);
+        }
+        left -= u64::from(per_word);
+    }
+    if left > 0 {
+        let word = rng.next_u64();
+        for j in 0..left as u32 {
+            take.take(start + ((word >> (j * K)) & mask) as usize, 1.0, (j as usize) % LANES);
+        }
+    }
+    take
 }
 
 /// The last row of [`within`], when one is still wanted.
@@ -326,6 +366,32 @@ mod tests {
         // 40 × 123 = 4920 draws, Poisson-like SE √4920 ≈ 70; 4 SE = 280.
         let tail: u32 = counts[3 * CHUNK_ROWS..].iter().sum();
         assert!((f64::from(tail) - 4920.0).abs() < 280.0, "{tail}");
+    }
+
+    /// A power-of-two chunk's rows, K bits each from 64-bit words: exactly `count` rows, all in
+    /// the chunk, and uniform over it (a wrong shift or mask would pile rows up on some).
+    #[test]
+    fn packed_rows_are_counted_and_uniform() {
+        for k in 8..=14u32 {
+            let len = 1usize << k;
+            // Not a multiple of any word's rows, so the last word's tail is used too.
+            let count = 200 * len as u64 + 3;
+            let mut counts = vec![0u64; len];
+            let mut rng = replicate_stream(11, u64::from(k));
+            let mut taken = 0u64;
+            let _ = within(&mut rng, 100, len, count, |r: usize, w: f64, _| {
+                assert_eq!(w, 1.0);
+                counts[r - 100] += 1;
+                taken += 1;
+            });
+            assert_eq!(taken, count);
+            // Pearson's χ² over the cells has len − 1 degrees of freedom: mean len − 1, SD
+            // √(2(len − 1)); 4 SD either side.
+            let expected = count as f64 / len as f64;
+            let chi2: f64 = counts.iter().map(|c| (*c as f64 - expected).powi(2) / expected).sum();
+            let (df, sd) = ((len - 1) as f64, (2.0 * (len - 1) as f64).sqrt());
+            assert!((chi2 - df).abs() < 4.0 * sd, "k = {k}: χ² = {chi2}, df = {df}");
+        }
     }
 
     /// `below` stays in range and is uniform, for a tiny range and for one just above 2^31
