@@ -22,7 +22,7 @@ use crate::engine::driver::{self, Outcome, Prepared, RunError, SampleProblems, W
 use crate::engine::executor::Budget;
 use crate::engine::job::{Resampled, Samples};
 use crate::engine::plan::ResampleCount;
-use crate::engine::rng::MAX_SEED;
+use crate::engine::rng::{GENERATOR, MAX_SEED};
 use crate::engine::scheme::SchemeError;
 use crate::engine::verdict::Sizes;
 
@@ -106,10 +106,11 @@ fn replayed(t: &str, asked: &Asked, limits: &Limits) -> Result<(Params, Option<C
             "is not a whole token issued by this service (it starts with \"{}\"); copy it whole from an earlier response",
             token::PREFIX
         )),
-        TokenError::Version { format, engine } => refuse(format!(
-            "was issued by format {format}, engine {engine}; this server (format {}, engine {}) cannot promise the same bits, so send the parameters instead",
+        TokenError::Version { format, engine, generator } => refuse(format!(
+            "was issued by format {format}, engine {engine}, generator {generator}; this server (format {}, engine {}, generator {}) cannot promise the same bits, so send the parameters instead",
             token::FORMAT_VERSION,
-            token::ENGINE_VERSION
+            token::ENGINE_VERSION,
+            GENERATOR
         )),
     })?;
     if body.comparing.is_some() != asked.comparing.is_some() {

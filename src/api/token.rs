@@ -72,8 +72,9 @@ impl TokenBody {
 pub enum TokenError {
     /// Not a token of this service, or damaged, or holding values outside their types' ranges.
     Malformed,
-    /// Written by another format or engine version, whose results this engine may not reproduce.
-    Version { format: String, engine: String },
+    /// Written by another format, engine version or generator, whose results this engine may not
+    /// reproduce.
+    Version { format: String, engine: String, generator: String },
 }
 
 pub fn decode(token: &str) -> Result<TokenBody, TokenError> {
@@ -84,6 +85,7 @@ pub fn decode(token: &str) -> Result<TokenBody, TokenError> {
         return Err(TokenError::Version {
             format: head.to_string(),
             engine: "unknown".into(),
+            generator: "unknown".into(),
         });
     }
     let bytes = URL_SAFE_NO_PAD.decode(rest).map_err(|_| TokenError::Malformed)?;
@@ -92,6 +94,7 @@ pub fn decode(token: &str) -> Result<TokenBody, TokenError> {
         return Err(TokenError::Version {
             format: body.v.to_string(),
             engine: body.engine,
+            generator: body.generator,
         });
     }
     Ok(body)
@@ -117,9 +120,20 @@ mod tests {
         let t = TokenBody::new(42, 2000, Stop::Done, params, &[[7u8; 32]]);
         let s = t.encode();
         assert!(s.starts_with(PREFIX));
-        assert_eq!(decode(&s), Ok(t));
+        assert_eq!(decode(&s), Ok(t.clone()));
         assert_eq!(decode("rt2.!!!"), Err(TokenError::Malformed));
         assert_eq!(decode("xyz"), Err(TokenError::Malformed));
         assert!(matches!(decode("bs1.eyJ2IjoxfQ"), Err(TokenError::Version { .. })));
+        // Another generator's token names it: its numbers would differ.
+        let mut old = t.clone();
+        old.generator = "chacha8-stream-per-replicate-v2".into();
+        assert_eq!(
+            decode(&old.encode()),
+            Err(TokenError::Version {
+                format: FORMAT_VERSION.to_string(),
+                engine: ENGINE_VERSION.into(),
+                generator: old.generator.clone(),
+            })
+        );
     }
 }

@@ -1097,6 +1097,16 @@ async fn an_edited_token_is_held_to_the_request_limits() {
     // Re-encoded as it was, it replays.
     let again = ok(post(&app, json!({"data": data, "token": reencode(&original)})).await);
     assert_eq!(without_timing(again), without_timing(first));
+    // A token of an earlier generator is refused, and the message says which generator differs.
+    let mut old = original.clone();
+    old["generator"] = json!("chacha8-stream-per-replicate-v2");
+    let v = invalid(post(&app, json!({"data": data, "token": reencode(&old)})).await, &["/token"]);
+    let message = message_at(&v, "/token");
+    assert!(message.contains("generator chacha8-stream-per-replicate-v2;"), "{message}");
+    assert!(
+        message.contains(&format!("generator {})", original["generator"].as_str().unwrap())),
+        "{message}"
+    );
 }
 
 /// The bounds of a request's lists, and the resample limit, hold for a token's parameters and
