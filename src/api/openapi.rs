@@ -277,44 +277,14 @@ pub fn compare_response_example() -> serde_json::Value {
 /// Written by the contract test with `BANDSAW_WRITE_EXAMPLES=1`.
 const COMPARE_RESPONSE_EXAMPLE: &str = include_str!("../../openapi/compare_response_example.json");
 
-/// The example response of `POST /v1/interval`.
+/// The example response of `POST /v1/interval`: what the server answers to
+/// [`interval_request_example`] (a test keeps them equal).
 pub fn interval_response_example() -> serde_json::Value {
-    serde_json::json!({
-        "estimate": 12.4375,
-        "standard_error": 0.66206,
-        "standard_error_mc_error": 0.00994,
-        "bias": -0.01219,
-        "bias_mc_error": 0.0148,
-        "bias_corrected_estimate": 12.44969,
-        "n": 8,
-        "resamples": 2000,
-        "complete": true,
-        "intervals": [
-            {"method": "percentile", "level": 0.95, "lower": 11.1625, "upper": 13.7125,
-             "lower_mc_error": 0.025, "upper_mc_error": 0.03125, "quantile_levels": [0.025, 0.975]},
-            {"method": "bca", "level": 0.95, "lower": 11.2125, "upper": 13.825,
-             "lower_mc_error": 0.05348, "upper_mc_error": 0.04122, "quantile_levels": [0.03242, 0.98105]}
-        ],
-        "statistic": {"name": "mean"},
-        "scheme": {"kind": "iid"},
-        "seed": 7,
-        "diagnostics": {
-            "z0": 0.04702,
-            "acceleration": 0.0054,
-            "replicate_skewness": 0.05013,
-            "distinct_replicate_values": 453,
-            "undefined_replicates": 0,
-            "jackknife": {"kind": "closed_form"},
-            "stop": "done",
-            "warnings": [{
-                "code": "small_sample",
-                "message": "only 8 observations: bootstrap intervals from so few are unreliable (they tend to be too narrow). Gather more data; meanwhile prefer bca or studentized and read the interval as rough."
-            }]
-        },
-        "token": "rt2.eyJ2IjoyLCJlbmdpbmUiOiIwLjEuMCIsImdlbmVyYXRvciI6ImNoYWNoYTgtc3RyZWFtLXBlci1yZXBsaWNhdGUtdjEiLCJzZWVkIjo3LCJkcmF3biI6MjAwMCwic3RvcCI6ImRvbmUiLCJwYXJhbXMiOnsic3RhdGlzdGljIjp7Im5hbWUiOiJtZWFuIn0sInJlc2FtcGxlcyI6MjAwMCwidGFyZ2V0X21jX2Vycm9yIjpudWxsLCJsZXZlbHMiOlswLjk1XSwibWV0aG9kcyI6WyJwZXJjZW50aWxlIiwiYmNhIl0sInNjaGVtZSI6eyJraW5kIjoiaWlkIn0sImluY2x1ZGUiOltdLCJpbm5lcl9yZXNhbXBsZXMiOjUwfSwiZGF0YSI6WyI1NmExMmEwOTUzODNjYjI5ODY0OGRkOTIyOGE4M2U2Y2M3YWI0YTY4NjZiZTY0NDA4ODdiOTFjNWZjZmRkYWZjIl19",
-        "elapsed_ms": 3.933
-    })
+    serde_json::from_str(INTERVAL_RESPONSE_EXAMPLE).expect("the example is JSON")
 }
+
+/// Written by the contract test with `BANDSAW_WRITE_EXAMPLES=1`.
+const INTERVAL_RESPONSE_EXAMPLE: &str = include_str!("../../openapi/interval_response_example.json");
 
 /// The example response of `POST /v1/batch`.
 pub fn batch_response_example() -> serde_json::Value {

@@ -233,22 +233,41 @@ fn examples(doc: &Value) -> Vec<(String, Value, Value, bool)> {
 #[tokio::test]
 async fn every_example_validates_and_every_request_example_is_accepted() {
     let app = TestApp::spawn().await;
-    // The comparison's example response is the server's own answer to its example request.
-    let answer = ok(app.post("/v1/compare", &bandsaw::api::openapi::compare_request_example()).await);
-    let file = concat!(env!("CARGO_MANIFEST_DIR"), "/openapi/compare_response_example.json");
-    if std::env::var_os("BANDSAW_WRITE_EXAMPLES").is_some() {
-        std::fs::write(file, serde_json::to_string_pretty(&answer).unwrap() + "\n").unwrap();
+    // The example responses are the server's own answers to the example requests.
+    use bandsaw::api::openapi as api;
+    let pairs = [
+        (
+            "/v1/interval",
+            api::interval_request_example(),
+            "interval",
+            api::interval_response_example(),
+        ),
+        (
+            "/v1/compare",
+            api::compare_request_example(),
+            "compare",
+            api::compare_response_example(),
+        ),
+    ];
+    for (route, request, name, example) in pairs {
+        let answer = ok(app.post(route, &request).await);
+        let file = format!("{}/openapi/{name}_response_example.json", env!("CARGO_MANIFEST_DIR"));
+        if std::env::var_os("BANDSAW_WRITE_EXAMPLES").is_some() {
+            std::fs::write(&file, serde_json::to_string_pretty(&answer).unwrap() + "\n").unwrap();
+        }
+        let untimed = |mut v: Value| {
+            if let Some(contrast) = v.get_mut("contrast").and_then(Value::as_object_mut) {
+                contrast.remove("elapsed_ms");
+            }
+            without_timing(v)
+        };
+        assert_eq!(
+            untimed(example),
+            untimed(answer),
+            "the example response of {route} is not what the server answers to its example request; \
+             rewrite it with BANDSAW_WRITE_EXAMPLES=1 cargo test --release --test service contract"
+        );
     }
-    let untimed = |mut v: Value| {
-        v["contrast"].as_object_mut().unwrap().remove("elapsed_ms");
-        without_timing(v)
-    };
-    assert_eq!(
-        untimed(bandsaw::api::openapi::compare_response_example()),
-        untimed(answer),
-        "the example response of /v1/compare is not what the server answers to its example request; \
-         rewrite it with BANDSAW_WRITE_EXAMPLES=1 cargo test --release --test service contract"
-    );
     let doc = document();
     let all = examples(doc);
     assert!(all.len() >= 15, "{} examples", all.len());
