@@ -82,9 +82,10 @@ fn pool(threads: usize) -> Result<ThreadPool, String> {
 }
 
 /// Rows drawn below [`CEILING_RANGE`] on this thread for about `seconds`, as the kernels draw
-/// them ([`rows`]: Lemire's bounded draw on half-words, k-bit fields in chunks of 2^k rows), a replicate's worth from each stream
-/// in turn, with nothing done with them but folding every candidate into an accumulator that
-/// goes through `black_box`, so that no draw can be optimised away.
+/// them ([`rows`]: Lemire's bounded draw on half-words, k-bit fields in chunks of 2^k rows), a
+/// replicate's worth from each stream in turn, with nothing done with them but folding every
+/// candidate into an accumulator that goes through `black_box`, so that no draw can be
+/// optimised away.
 pub fn ceiling(seconds: f64) -> Ceiling {
     let per_stream = u64::from(CEILING_RANGE);
     let mut acc = Fold(0);

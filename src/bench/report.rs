@@ -215,7 +215,7 @@ fn ceiling(out: &mut String, c: &Ceiling) {
     let _ = writeln!(out, "\nThe ceiling, one thread: bounded draws from the generator");
     let _ = writeln!(
         out,
-        "  rows below {} (Lemire, chunk by chunk) from ChaCha8 replicate streams   {} draws/s",
+        "  rows below {} (as the kernels draw them) from ChaCha8 replicate streams   {} draws/s",
         grouped(u64::from(c.range)),
         rate(c.draws_per_second)
     );

@@ -1,9 +1,9 @@
 //! Drawing from a replicate's stream: unbiased bounded integers, binomial counts, and the rows
 //! of an `iid` resample handed out in blocks, chunk by chunk.
 //!
-//! Every scheme and fast path draws its integers through [`below`], so one rule fixes how a
-//! stream's words become rows; a change here changes every result, which is why
-//! [`crate::engine::rng::GENERATOR`] names it.
+//! Every scheme and fast path draws its integers through this module ([`below`], [`rows`],
+//! [`within`]), so its rules fix how a stream's words become rows; a change here changes every
+//! result, which is why [`crate::engine::rng::GENERATOR`] names it.
 
 use rand::RngCore;
 use rand_chacha::ChaCha8Rng;
@@ -85,8 +85,8 @@ pub fn binomial(rng: &mut ChaCha8Rng, trials: u64, p: f64) -> u64 {
 /// Below [`SPLIT_FROM`] rows they are drawn directly; from there on, the rows are split into
 /// chunks ([`chunk_len`]), how many draws land in each chunk is drawn first (a multinomial, by
 /// conditional binomials over the chunks in order), and then that many rows are drawn within
-/// the chunk. Chunks keep random reads in cache, and their power-of-two lengths reject no
-/// half-word in [`within`]. The multiset of rows has exactly the distribution of n independent
+/// the chunk. Chunks keep random reads in cache, and their power-of-two lengths need no
+/// rejection in [`within`]. The multiset of rows has exactly the distribution of n independent
 /// uniform draws; only the order in which they arrive differs, which no statistic of an `iid`
 /// resample sees.
 ///
@@ -149,18 +149,17 @@ impl<F: FnMut(usize, f64, usize)> Take for F {
 /// 10⁴ rows), which keeps every row exactly uniform. The rows are the first `count` accepted
 /// halves; a half left over in the last word is not used.
 ///
-/// A chunk of 2^8 to 2^12 rows takes its rows as that many bits of 64-bit words instead
-/// ([`packed`]): 5 to 8 rows a word where halves give 4, which made a batch of 200 series of
-/// 2000 rows about a quarter faster. Larger powers of two fit 4 to a word either way and keep
-/// the halves.
+/// A chunk of 2^k rows, k from 8 to 12, takes each row as k bits of a 64-bit word instead
+/// ([`packed`]): 5 to 8 rows a word where halves give 4, so a resample of 2000 rows reads
+/// about 330 64-bit words of the generator instead of about 500. Larger powers of two fit 4
+/// rows to a word either way and keep the halves.
 #[inline]
 pub fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u64, take: T) -> T {
     debug_assert!(len > 0 && len <= 1 << 16);
     let range = len as u32;
     let threshold = ((1u32 << 16) - range) % range;
-    // A power-of-two range (every full chunk) rejects nothing: its rows are k-bit fields of
-    // 64-bit words, as many to a word as fit, and its loop needs no weights.
-    let (take, left) = if threshold == 0 {
+    // A power-of-two range rejects nothing, so its loops need no weights.
+    if threshold == 0 {
         return match range.trailing_zeros() {
             8 => packed::<T, 8>(rng, start, count, take),
             9 => packed::<T, 9>(rng, start, count, take),
@@ -172,9 +171,8 @@ pub fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u6
                 last(rng, start, range, 0, left, take)
             }
         };
-    } else {
-        pairs::<T, true>(rng, start, range, threshold, count, take)
-    };
+    }
+    let (take, left) = pairs::<T, true>(rng, start, range, threshold, count, take);
     last(rng, start, range, threshold, left, take)
 }
 
@@ -212,9 +210,10 @@ fn pairs<T: Take, const REJECTS: bool>(
     (take, left)
 }
 
-/// `count` rows of a chunk of 2^K rows: each row is K bits of a 64-bit word, ⌊64/K⌋ rows a
-/// word (6 for 1024 rows where half-words give 4), every one exactly uniform with no rejection;
-/// the bits left over in a word are not used.
+/// `count` rows of a chunk of 2^K rows: each row is K bits of a 64-bit word, lowest bits first,
+/// ⌊64/K⌋ rows a word (6 for 1024 rows where half-words give 4). Disjoint bits of a uniform
+/// word are independent and uniform, so every row is exactly uniform with no rejection; the
+/// bits left over in a word, and the fields of the last word not needed, are not used.
 #[inline]
 fn packed<T: Take, const K: u32>(rng: &mut ChaCha8Rng, start: usize, count: u64, mut take: T) -> T {
     let per_word = 64 / K;
@@ -368,13 +367,15 @@ mod tests {
         assert!((f64::from(tail) - 4920.0).abs() < 280.0, "{tail}");
     }
 
-    /// A power-of-two chunk's rows, K bits each from 64-bit words: exactly `count` rows, all in
-    /// the chunk, and uniform over it (a wrong shift or mask would pile rows up on some).
+    /// A power-of-two chunk's rows: exactly `count` rows, all in the chunk, and uniform over it
+    /// (a wrong mask would pile rows up on some cells; how the fields are cut from the words is
+    /// tested exactly below).
     #[test]
     fn packed_rows_are_counted_and_uniform() {
         for k in 8..=14u32 {
             let len = 1usize << k;
-            // Not a multiple of any word's rows, so the last word's tail is used too.
+            // 3 past a multiple of the rows of one word for most k (not k = 9), so a last word's
+            // part is used too.
             let count = 200 * len as u64 + 3;
             let mut counts = vec![0u64; len];
             let mut rng = replicate_stream(11, u64::from(k));
@@ -391,6 +392,35 @@ mod tests {
             let chi2: f64 = counts.iter().map(|c| (*c as f64 - expected).powi(2) / expected).sum();
             let (df, sd) = ((len - 1) as f64, (2.0 * (len - 1) as f64).sqrt());
             assert!((chi2 - df).abs() < 4.0 * sd, "k = {k}: χ² = {chi2}, df = {df}");
+        }
+    }
+
+    /// The packed path is taken for every k from 8 to 12 and gives exactly the fields of the
+    /// stream's 64-bit words, lowest bits first, in lanes 0, 1, 2, 3, 0, …, for counts that end
+    /// anywhere in a word (a shift that overlapped fields would pass a test of uniformity alone).
+    #[test]
+    fn packed_rows_are_the_words_fields_in_order() {
+        for k in 8..=12u32 {
+            let per_word = u64::from(64 / k);
+            for count in [0, 1, per_word - 1, per_word, 3 * per_word + 2] {
+                let mut rng = replicate_stream(3, u64::from(k));
+                let mut copy = rng.clone();
+                let mut got = Vec::new();
+                let _ = within(&mut rng, 7, 1 << k, count, |r: usize, w: f64, lane: usize| got.push((r, w, lane)));
+                let mut want = Vec::new();
+                let mut word = 0u64;
+                for i in 0..count {
+                    let j = i % per_word;
+                    if j == 0 {
+                        word = copy.next_u64();
+                    }
+                    let field = (word >> (j as u32 * k)) & ((1 << k) - 1);
+                    want.push((7 + field as usize, 1.0, j as usize % LANES));
+                }
+                assert_eq!(got, want, "k = {k}, count = {count}");
+                // Both read the same words: the streams are in step afterwards.
+                assert_eq!(rng.next_u64(), copy.next_u64(), "k = {k}, count = {count}");
+            }
         }
     }
 

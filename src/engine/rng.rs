@@ -16,9 +16,9 @@ use rand_chacha::ChaCha8Rng;
 /// Name of the generator and of how its words become draws, recorded in the reproducibility
 /// token. v2: bounded integers by Lemire's multiply-shift (a resample's rows from 16-bit
 /// halves of words, chunk by chunk; [`crate::engine::draw`]), and the exact `iid` shortcuts
-/// ([`crate::engine::statistic::shortcut`]). v3: rows of a power-of-two chunk of 2^8 to 2^12
-/// rows as that many bits of 64-bit words. A token of an earlier version is refused rather
-/// than replayed to different numbers.
+/// ([`crate::engine::statistic::shortcut`]). v3: in a chunk of 2^k rows, k from 8 to 12, each
+/// row is k bits of a 64-bit word. A token of an earlier version is refused rather than
+/// replayed to different numbers.
 pub const GENERATOR: &str = "chacha8-stream-per-replicate-v3";
 
 /// The largest seed: 2^53 − 1, so that every JSON client (JavaScript's numbers included) carries

@@ -1032,4 +1032,9 @@ async fn an_undefined_leave_out_correlation_leaves_bca_without_acceleration() {
         .filter_map(|w| w["code"].as_str())
         .collect();
     assert!(codes.contains(&"bca_without_acceleration"), "{v}");
+    assert_eq!(num(&v, "/diagnostics/acceleration"), 0.0);
+    assert!(
+        num(&v, "/intervals/0/lower").is_finite() && num(&v, "/intervals/0/upper").is_finite(),
+        "{v}"
+    );
 }

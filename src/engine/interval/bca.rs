@@ -42,7 +42,11 @@ pub fn acceleration(values: &[f64], multiplicity: &[f64]) -> f64 {
     let total: f64 = multiplicity.iter().sum();
     let mean = values.iter().zip(multiplicity).map(|(v, c)| v * c).sum::<f64>() / total;
     let scale = values.iter().map(|v| (mean - v).abs()).fold(0.0, f64::max);
-    if scale == 0.0 || !scale.is_finite() {
+    if !scale.is_finite() {
+        // Influences past the largest float (values near it): undefined, like a NaN value.
+        return f64::NAN;
+    }
+    if scale == 0.0 {
         return 0.0;
     }
     let (mut s2, mut s3) = (0.0, 0.0);
@@ -83,7 +87,11 @@ pub fn acceleration_of_samples(samples: &[(&[f64], &[f64])]) -> f64 {
         })
         .collect();
     let scale = influence.iter().flat_map(|(u, _)| u.iter()).fold(0.0_f64, |m, u| m.max(u.abs()));
-    if scale == 0.0 || !scale.is_finite() {
+    if !scale.is_finite() {
+        // Influences past the largest float (values near it): undefined, like a NaN value.
+        return f64::NAN;
+    }
+    if scale == 0.0 {
         return 0.0;
     }
     let (mut s2, mut s3) = (0.0, 0.0);
@@ -209,5 +217,20 @@ mod tests {
         assert!((acceleration(&big, &c) - a).abs() < 1e-12 * a.abs());
         let several = acceleration_of_samples(&[(&big, &c), (&big, &c)]);
         assert!(several.is_finite() && several != 0.0, "{several}");
+    }
+
+    #[test]
+    fn an_undefined_jackknife_value_leaves_the_acceleration_undefined() {
+        let c = [1.0; 4];
+        for bad in [f64::NAN, f64::INFINITY, f64::NEG_INFINITY] {
+            let v = [1.0, 2.0, bad, 3.0];
+            assert!(acceleration(&v, &c).is_nan(), "{bad}");
+            assert!(acceleration_of_samples(&[(&[1.0, 2.0, 7.0, 3.0], &c), (&v, &c)]).is_nan(), "{bad}");
+        }
+        // Finite values whose mean overflows: the influences are not finite either.
+        let huge = [f64::MAX, f64::MAX, -f64::MAX, 1.0];
+        assert!(acceleration(&huge, &c).is_nan());
+        // Values that do not vary still give 0.
+        assert_eq!(acceleration(&[2.0; 4], &c), 0.0);
     }
 }

@@ -520,9 +520,10 @@ pub(crate) fn weighted_plugin_variance(x: &[f64], w: &[f64]) -> f64 {
 /// Computed on centred values so that large offsets do not cancel. The centred sum is
 /// compensated: when one value dwarfs the rest (10¹⁹ among values near 100), the plain centred
 /// sum's rounding (thousands) swamps what is left when the large value is left out, which came
-/// out negative for positive data. What remains is about a rounding of the mean (ulp(m), which
-/// can still exceed the others' mean when the large value is 10²² or more), so each result is
-/// also held within the values' range, where a mean of some of them lies.
+/// out negative for positive data. What remains is the rounding of x_j − m over N − 1 and a
+/// rounding of m itself (half an ulp of the large value over N, and ulp(m)), which exceeds the
+/// others' mean once the large value reaches about 10²⁰–10²¹ for N in the thousands; so each
+/// result is also held within the values' range, where a mean of some of them lies.
 pub(crate) fn jackknife_means(x: &[f64], base: &[f64]) -> Vec<f64> {
     let n: f64 = base.iter().sum();
     let m = weighted_mean(x, base);
@@ -596,8 +597,9 @@ pub(crate) mod tests {
         // half an ulp of 8.3e18 over n − 1 = 2199, and the division): under 1 in all. The
         // others' mean summed alone is good to ~1e-11.
         assert!((jack[2199] - others).abs() < 1.0, "{} vs {others}", jack[2199]);
-        // At 1e22 the rounding of the mean (ulp 2^21 at ~4.5e18) dwarfs the others' mean: the
-        // result is held within the data's range, never negative for positive data.
+        // At 1e22 (ulp 2^21) half an ulp over n − 1 is ~480, and the mean (~4.5e18) has an ulp
+        // of 512: both dwarf the others' mean, and the result is held within the data's range,
+        // never negative for positive data.
         x[2199] = 1e22;
         let jack = jackknife_means(&x, &vec![1.0; x.len()]);
         assert!(jack.iter().all(|v| (1.0..=1e22).contains(v)), "{:?}", jack[2199]);
