@@ -1279,3 +1279,30 @@ async fn a_syntax_error_after_a_large_array_names_its_place_in_the_body_as_sent(
     let at = format!("column {}", column + 3);
     assert!(detail.contains(&at), "{detail} should name {at}");
 }
+
+/// One value far out (1e20 among 2199 values from 1 to 143): every resample's mean lies within
+/// the data's range, and a resample without the far value has the mean of the others' rows,
+/// near 72. Centred on the sample mean (~4.5e16), such resamples summed thousands of terms near
+/// −4.5e16 and came out near −170.
+#[tokio::test]
+async fn a_value_far_out_leaves_the_other_resamples_means_exact() {
+    let app = TestApp::spawn().await;
+    let mut data: Vec<f64> = (0..2199u64).map(|i| 1.0 + ((i * 37) % 1000) as f64 / 7.0).collect();
+    data.push(1e20);
+    let v = ok(post(
+        &app,
+        json!({"data": data, "statistic": "mean", "resamples": 400, "seed": 1, "include": ["replicates"]}),
+    )
+    .await);
+    let reps: Vec<f64> = v["replicates"].as_array().unwrap().iter().map(|r| r.as_f64().unwrap()).collect();
+    assert!(
+        reps.iter().all(|r| (1.0..=1e20).contains(r)),
+        "{:?}",
+        reps.iter().find(|r| !(1.0..=1e20).contains(*r))
+    );
+    // A resample misses the far value with probability (1 − 1/2200)^2200 ≈ e⁻¹: about 147 of
+    // 400 (SD 9.6), so some surely do. Their means are means of 2200 rows between 1 and 143.6.
+    let without: Vec<f64> = reps.iter().copied().filter(|r| *r < 1e6).collect();
+    assert!(without.len() > 100, "{}", without.len());
+    assert!(without.iter().all(|r| (1.0..=143.6).contains(r)), "{without:?}");
+}
