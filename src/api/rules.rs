@@ -40,7 +40,7 @@ crate::wire_enum! {
         StatisticDomain = "statistic_domain",
         /// A token stands in for the parameters it records; send one or the other.
         TokenReplacesParameters = "token_replaces_parameters",
-        /// A token must be whole, issued by a server of the same format and engine version, and within this server's limits.
+        /// A token must be whole, issued by a server of the same format, engine version and generator, and within this server's limits.
         TokenValid = "token_valid",
     }
 }

@@ -230,6 +230,7 @@ mod tests {
         // Finite values whose mean overflows: the influences are not finite either.
         let huge = [f64::MAX, f64::MAX, -f64::MAX, 1.0];
         assert!(acceleration(&huge, &c).is_nan());
+        assert!(acceleration_of_samples(&[(&huge, &c), (&[1.0, 2.0, 7.0, 3.0], &c)]).is_nan());
         // Values that do not vary still give 0.
         assert_eq!(acceleration(&[2.0; 4], &c), 0.0);
     }

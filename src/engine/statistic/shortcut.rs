@@ -53,11 +53,14 @@ pub struct Order {
 }
 
 impl Shortcut {
-    /// The mean of raw rows, centred on the middle value of the sorted rows. Not on the mean:
-    /// one value far out (1e20 among values near 70) drags the mean to ~4.5e16, and a resample
-    /// without that value then sums thousands of terms near −4.5e16 whose roundings (an ulp of
-    /// 16 384 at 1e20) leave its mean off by hundreds; centred on a typical value, such a
-    /// resample's terms are small and exact, and one with the far value is dominated by it.
+    /// The mean of raw rows, centred on the middle value of the sorted rows (a median). Not on
+    /// the mean: one value far out (1e20 among values near 70) drags the mean to ~4.5e16, and a
+    /// resample without that value then sums thousands of terms near −4.5e16 whose roundings
+    /// (an ulp of 16 384 at 1e20) leave its mean off by hundreds. Centred on a median, such a
+    /// resample's terms are small and each rounds relative to itself, and one with the far
+    /// value is dominated by it. A median also keeps Σ|x − c| (the sum's rounding bound) least,
+    /// and lies within one SD of the mean, so the sum of squares for the standard error loses
+    /// at most a bit to the subtraction of the squared mean.
     pub fn mean(c: &ColumnLayout) -> Option<Shortcut> {
         c.raw.then(|| Shortcut::Mean {
             centre: c.x.get(c.x.len() / 2).copied().unwrap_or(0.0),
