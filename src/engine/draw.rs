@@ -386,7 +386,7 @@ mod tests {
                 taken += 1;
             });
             assert_eq!(taken, count);
-            // Pearson's χ² over the cells has len − 1 degrees of freedom: mean len − 1, SD
+            // Pearson's χ² over the cells has len − 1 degrees of freedom (textbook): mean len − 1, SD
             // √(2(len − 1)); 4 SD either side.
             let expected = count as f64 / len as f64;
             let chi2: f64 = counts.iter().map(|c| (*c as f64 - expected).powi(2) / expected).sum();

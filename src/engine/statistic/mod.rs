@@ -534,10 +534,10 @@ pub(crate) fn jackknife_means(x: &[f64], base: &[f64]) -> Vec<f64> {
     x.iter().map(|xi| (m + (s - (xi - m)) / (n - 1.0)).clamp(lo, hi)).collect()
 }
 
-/// A sum with Neumaier's compensation (Neumaier 1974, ZAMM 54; the improved Kahan–Babuška
-/// summation): the rounding error of each addition is carried and added back at the end. Its
-/// error is about 2ε|S| plus a term of order nε²Σ|tᵢ|, so a sum that cancels (as a centred sum
-/// does) keeps what the large terms would otherwise hide, up to that second term.
+/// A sum with Neumaier's compensation (Neumaier 1974, ZAMM 54, from memory; the improved
+/// Kahan–Babuška summation): the rounding error of each addition is carried and added back at
+/// the end. Its error is about 2ε|S| plus a term of order nε²Σ|tᵢ|, so a sum that cancels (as
+/// a centred sum does) keeps what the large terms would otherwise hide, up to that second term.
 pub(crate) fn compensated_sum(terms: impl Iterator<Item = f64>) -> f64 {
     let (mut sum, mut carry) = (0.0_f64, 0.0_f64);
     for t in terms {

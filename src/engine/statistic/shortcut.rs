@@ -59,8 +59,9 @@ impl Shortcut {
     /// (an ulp of 16 384 at 1e20) leave its mean off by hundreds. Centred on a median, such a
     /// resample's terms are small and each rounds relative to itself, and one with the far
     /// value is dominated by it. A median also keeps Σ|x − c| (the sum's rounding bound) least,
-    /// and lies within one SD of the mean, so the sum of squares for the standard error loses
-    /// at most a bit to the subtraction of the squared mean.
+    /// and lies within one SD of the mean (|x̄ − m| ≤ E|X − m| ≤ E|X − x̄| ≤ σ, elementary), so
+    /// the sum of squares for the standard error loses at most a bit to the subtraction of the
+    /// squared mean.
     pub fn mean(c: &ColumnLayout) -> Option<Shortcut> {
         c.raw.then(|| Shortcut::Mean {
             centre: c.x.get(c.x.len() / 2).copied().unwrap_or(0.0),
