@@ -209,6 +209,17 @@ fn the_checks_refuse_bad_problems() {
     );
     assert!(valid_problem(&Problem::internal("a bug"), body).is_err());
     assert!(bound(0) < bound(1 << 20), "the bound grows with the body");
-    let (v, held) = peak_of(|| vec![1u8; 1 << 20].len());
-    assert!(v == 1 << 20 && held >= 1 << 20, "the allocator counts what a case holds: {held}");
+    // A pool thread's late free can lower one measurement (see `peak_of`), never three in a row
+    // unless the allocator fails to count; the fuzz run reruns a case three times likewise.
+    let held: Vec<usize> = (0..3)
+        .map(|_| peak_of(|| vec![1u8; 1 << 20].len()))
+        .map(|(v, held)| {
+            assert_eq!(v, 1 << 20);
+            held
+        })
+        .collect();
+    assert!(
+        held.iter().any(|&h| h >= 1 << 20),
+        "the allocator counts what a case holds: {held:?}"
+    );
 }
