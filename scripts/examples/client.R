@@ -37,6 +37,18 @@ cat(sprintf("median: %.3f minutes (n = %d, seed %d)\n", r$estimate, r$n, r$seed)
 iv <- r$intervals  # a data frame: one row per method and level
 cat(sprintf("%s %.0f%%: %.3f to %.3f\n", iv$method, iv$level * 100, iv$lower, iv$upper), sep = "")
 
+# A statistic with a parameter is a named list. With auto_unbox off, jsonlite boxes its members
+# too ({"name": ["exceedance"], "threshold": [10]}); bandsaw reads those as well. Here: the
+# share of tickets that waited more than 10 minutes.
+share <- list(data = minutes, statistic = list(name = "exceedance", threshold = 10),
+              levels = 0.9, methods = "percentile", resamples = 4000, seed = 2024)
+bare <- post("/v1/interval", toJSON(share, auto_unbox = TRUE, digits = NA))
+kept <- post("/v1/interval", toJSON(share, digits = NA))
+stopifnot(bare$status == 200, kept$status == 200, identical(bare$body$intervals, kept$body$intervals))
+s <- bare$body
+cat(sprintf("share over 10 minutes: %.3f, 90%% interval %.3f to %.3f (both writer settings)\n",
+            s$estimate, s$intervals$lower, s$intervals$upper))
+
 # 2. A bad request: a string among the data and a statistic that does not exist. The server
 #    answers 422 with one error per bad field, each with a JSON Pointer into the request.
 bad <- post("/v1/interval", '{"data": [3, 5, "twelve", 8], "statistic": "typical"}')

@@ -7,7 +7,7 @@ use utoipa::openapi::schema::{AdditionalProperties, ArrayBuilder, ObjectBuilder,
 use utoipa::openapi::{Ref, RefOr};
 use utoipa::{PartialSchema, ToSchema};
 
-use super::decode::{describe, unknown_fields, Decode, Errors, Shape};
+use super::decode::{describe, unknown_fields, Decode, Errors, Shape, ONE_VALUE};
 use super::lift;
 use super::problem::escape_token;
 use super::rules::Rule;
@@ -163,20 +163,26 @@ fn bins(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<Result<
         "is required: the observations in each bin, one count per bin",
         errs,
     );
+    // One count, or (from R with `auto_unbox` off) a one-element array holding it.
     let overflow = match bins.get("overflow") {
         None => Some(0),
-        Some(v) => whole(v).or_else(|| {
-            errs.push(
-                format!("{at}/overflow"),
-                format!(
-                    "must be a whole number of observations above the last edge (0 or more); got {}",
-                    describe(v)
-                ),
-            );
-            None
-        }),
+        Some(Value::Array(one)) if one.len() == 1 => overflow_count(&one[0], &format!("{at}/overflow/0"), errs),
+        Some(v) => overflow_count(v, &format!("{at}/overflow"), errs),
     };
     Some(Sample::bins(edges?, counts?, overflow?))
+}
+
+fn overflow_count(v: &Value, at: &str, errs: &mut Errors) -> Option<u64> {
+    whole(v).or_else(|| {
+        errs.push(
+            at,
+            format!(
+                "must be a whole number of observations above the last edge (0 or more); got {}",
+                describe(v)
+            ),
+        );
+        None
+    })
 }
 
 /// Data as sent: a one-element array is a sample of one, never one value unboxed.
@@ -367,9 +373,13 @@ fn bins_schema() -> ObjectBuilder {
         )
         .property(
             "overflow",
-            count_schema()
+            OneOfBuilder::new()
+                .item(count_schema())
+                .item(ArrayBuilder::new().items(count_schema()).min_items(Some(1)).max_items(Some(1)))
                 .default(Some(0.into()))
-                .description(Some("The observations above the last edge, at unknown values. Default 0.")),
+                .description(Some(format!(
+                    "The observations above the last edge, at unknown values. Default 0. Also accepted as {ONE_VALUE}, as R's writers send it with `auto_unbox` off."
+                ))),
         )
         .required("edges")
         .required("counts")

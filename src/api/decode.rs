@@ -131,6 +131,44 @@ pub fn fit_pointer(raw: &Map<String, Value>, pointer: &str) -> String {
     }
 }
 
+/// Decode an object whose members R may have sent boxed: with `auto_unbox` off, R's writers send
+/// every member of a named list as an array, so `{"name": ["quantile"], "p": [0.9]}` stands for
+/// `{"name": "quantile", "p": 0.9}`. Each member that `lists` does not name and that came as a
+/// one-element array is read as its element; an error met inside such a member points at the
+/// element as sent (`/statistic/p/0`). Anything but an object is read as it is.
+pub fn with_members_unboxed<T>(
+    v: &Value,
+    at: &str,
+    errs: &mut Errors,
+    lists: &[String],
+    read: impl FnOnce(&Value, &str, &mut Errors) -> Option<T>,
+) -> Option<T> {
+    let Value::Object(obj) = v else {
+        return read(v, at, errs);
+    };
+    let mut unboxed = Vec::new();
+    let mut members = obj.clone();
+    for (key, value) in members.iter_mut() {
+        if let Value::Array(items) = value {
+            if items.len() == 1 && !lists.contains(key) {
+                *value = items.pop().expect("one item");
+                unboxed.push(format!("{at}/{}", escape_token(key)));
+            }
+        }
+    }
+    let before = errs.len();
+    let got = read(&Value::Object(members), at, errs);
+    for e in &mut errs.0[before..] {
+        let inside = unboxed
+            .iter()
+            .find(|m| e.pointer == **m || e.pointer.strip_prefix(m.as_str()).is_some_and(|r| r.starts_with('/')));
+        if let Some(member) = inside {
+            e.pointer = format!("{member}/0{}", &e.pointer[member.len()..]);
+        }
+    }
+    got
+}
+
 /// Decode through a type's serde derive, turning serde's first error into a field error with a
 /// JSON Pointer to the value at fault.
 pub fn with_serde<T: DeserializeOwned>(v: &Value, at: &str, errs: &mut Errors) -> Option<T> {

@@ -10,7 +10,7 @@ use utoipa::openapi::schema::{ArrayBuilder, ObjectBuilder, OneOfBuilder, Schema,
 use utoipa::openapi::{Ref, RefOr};
 use utoipa::{PartialSchema, ToSchema};
 
-use super::decode::{describe, every_field, given, with_serde, Decode, Errors, Shape};
+use super::decode::{describe, every_field, given, with_members_unboxed, with_serde, Decode, Errors, Shape};
 use crate::engine::interval::{Level, Method, DEFAULT_LEVEL, DEFAULT_METHODS};
 use crate::engine::job::{Include, InnerResamples};
 use crate::engine::plan::OnTimeLimit;
@@ -192,29 +192,36 @@ fn labels_ok(v: Option<&Value>, at: &str, errs: &mut Errors) -> bool {
 
 impl Decode for SchemeSpec {
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
-        let obj = checked_tag(v, at, "kind", &tag_values::<SchemeSpec>("kind"), errs)?;
-        // An internally tagged enum loses a field's place in serde's errors: a block length is
-        // read on its own first, so that its error points at it.
-        let mut lengths_ok = true;
-        for field in ["block_length", "mean_block_length"] {
-            if let Some(Err(e)) = obj.get(field).map(BlockLength::deserialize) {
-                errs.push(format!("{at}/{field}"), e.to_string());
-                lengths_ok = false;
-            }
-        }
-        let kind = obj.get("kind").and_then(Value::as_str);
-        for (scheme, field) in [("stratified", "strata"), ("cluster", "clusters")] {
-            if kind == Some(scheme) {
-                lengths_ok &= labels_ok(obj.get(field), &format!("{at}/{field}"), errs);
-            }
-        }
-        if !lengths_ok {
-            return None;
-        }
-        every_field(obj, at, errs, |v, t| {
-            SchemeSpec::deserialize(serde_path_to_error::Deserializer::new(v, t))
-        })
+        static LISTS: std::sync::OnceLock<Vec<String>> = std::sync::OnceLock::new();
+        let lists = LISTS.get_or_init(|| crate::api::schema::list_members(&crate::api::schema::variants::<SchemeSpec>("kind")));
+        with_members_unboxed(v, at, errs, lists, scheme_members)
     }
+}
+
+/// A scheme's object, its members unboxed where R boxed them.
+fn scheme_members(v: &Value, at: &str, errs: &mut Errors) -> Option<SchemeSpec> {
+    let obj = checked_tag(v, at, "kind", &tag_values::<SchemeSpec>("kind"), errs)?;
+    // An internally tagged enum loses a field's place in serde's errors: a block length is
+    // read on its own first, so that its error points at it.
+    let mut lengths_ok = true;
+    for field in ["block_length", "mean_block_length"] {
+        if let Some(Err(e)) = obj.get(field).map(BlockLength::deserialize) {
+            errs.push(format!("{at}/{field}"), e.to_string());
+            lengths_ok = false;
+        }
+    }
+    let kind = obj.get("kind").and_then(Value::as_str);
+    for (scheme, field) in [("stratified", "strata"), ("cluster", "clusters")] {
+        if kind == Some(scheme) {
+            lengths_ok &= labels_ok(obj.get(field), &format!("{at}/{field}"), errs);
+        }
+    }
+    if !lengths_ok {
+        return None;
+    }
+    every_field(obj, at, errs, |v, t| {
+        SchemeSpec::deserialize(serde_path_to_error::Deserializer::new(v, t))
+    })
 }
 
 /// `statistic`: a name, or an object with the name and its parameters.
@@ -239,52 +246,59 @@ pub fn names_alone() -> Vec<&'static str> {
 
 impl Decode for Statistic {
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
-        let names: Vec<String> = StatisticSpec::NAMES.iter().map(|s| s.to_string()).collect();
-        let (name, params) = match v {
-            Value::String(name) if !names.contains(name) => {
-                errs.push(
-                    at,
-                    format!("unknown statistic {v}; the catalogue has {} (GET /v1/catalog)", one_of(&names)),
-                );
-                return None;
-            }
-            Value::String(name) => (name.clone(), Map::new()),
-            Value::Object(_) => {
-                let mut obj = checked_tag(v, at, "name", &names, errs)?.clone();
-                let name = obj
-                    .shift_remove("name")
-                    .and_then(|n| n.as_str().map(String::from))
-                    .expect("checked");
-                for missing in required_parameters(&name).into_iter().filter(|p| !obj.contains_key(p)) {
-                    errs.push(format!("{at}/{missing}"), "is required");
-                }
-                (name, obj)
-            }
-            other => {
-                errs.push(
-                    at,
-                    format!(
-                        "must be a statistic's name or an object with \"name\" and its parameters; got {}",
-                        describe(other)
-                    ),
-                );
-                return None;
-            }
-        };
-        let read = |p: &Value, t: &mut serde_path_to_error::Track| {
-            StatisticSpec::deserialize_params(&name, serde_path_to_error::Deserializer::new(p, t)).expect("a known name")
-        };
-        if v.is_string() {
-            return match read(&Value::Object(params), &mut serde_path_to_error::Track::new()) {
-                Ok(spec) => Some(Statistic(spec)),
-                Err(_) => {
-                    errs.push(at, format!("the statistic \"{name}\" needs parameters: send an object such as {{\"name\": \"{name}\", ...}} (GET /v1/catalog lists them)"));
-                    None
-                }
-            };
-        }
-        every_field(&params, at, errs, read).map(Statistic)
+        static LISTS: std::sync::OnceLock<Vec<String>> = std::sync::OnceLock::new();
+        let lists = LISTS.get_or_init(|| crate::api::schema::list_members(&crate::api::schema::variants::<StatisticSpec>("name")));
+        with_members_unboxed(v, at, errs, lists, statistic_members)
     }
+}
+
+/// A statistic's name or object, the object's members unboxed where R boxed them.
+fn statistic_members(v: &Value, at: &str, errs: &mut Errors) -> Option<Statistic> {
+    let names: Vec<String> = StatisticSpec::NAMES.iter().map(|s| s.to_string()).collect();
+    let (name, params) = match v {
+        Value::String(name) if !names.contains(name) => {
+            errs.push(
+                at,
+                format!("unknown statistic {v}; the catalogue has {} (GET /v1/catalog)", one_of(&names)),
+            );
+            return None;
+        }
+        Value::String(name) => (name.clone(), Map::new()),
+        Value::Object(_) => {
+            let mut obj = checked_tag(v, at, "name", &names, errs)?.clone();
+            let name = obj
+                .shift_remove("name")
+                .and_then(|n| n.as_str().map(String::from))
+                .expect("checked");
+            for missing in required_parameters(&name).into_iter().filter(|p| !obj.contains_key(p)) {
+                errs.push(format!("{at}/{missing}"), "is required");
+            }
+            (name, obj)
+        }
+        other => {
+            errs.push(
+                at,
+                format!(
+                    "must be a statistic's name or an object with \"name\" and its parameters; got {}",
+                    describe(other)
+                ),
+            );
+            return None;
+        }
+    };
+    let read = |p: &Value, t: &mut serde_path_to_error::Track| {
+        StatisticSpec::deserialize_params(&name, serde_path_to_error::Deserializer::new(p, t)).expect("a known name")
+    };
+    if v.is_string() {
+        return match read(&Value::Object(params), &mut serde_path_to_error::Track::new()) {
+            Ok(spec) => Some(Statistic(spec)),
+            Err(_) => {
+                errs.push(at, format!("the statistic \"{name}\" needs parameters: send an object such as {{\"name\": \"{name}\", ...}} (GET /v1/catalog lists them)"));
+                None
+            }
+        };
+    }
+    every_field(&params, at, errs, read).map(Statistic)
 }
 
 /// The parameters a statistic requires, from its schema.

@@ -145,6 +145,34 @@ impl Modify for TaggedUnions {
                 *item = RefOr::T(Schema::Object(merged(item, tag)));
             }
         }
+        // Each member also boxed in a one-element array, as the decoder reads it from R
+        // (`decode::with_members_unboxed`); a list member stays as it is. Done after the loop
+        // above, as `lenient` resolves references through the components.
+        for (name, tag) in [("StatisticSpec", "name"), ("SchemeSpec", "kind")] {
+            let lists = super::schema::list_members(&super::schema::variants_of(&schemas[name], tag));
+            let Some(RefOr::T(Schema::OneOf(one_of))) = schemas.get(name) else {
+                panic!("{name} is a oneOf");
+            };
+            let items: Vec<RefOr<Schema>> = one_of
+                .items
+                .iter()
+                .map(|item| {
+                    let RefOr::T(Schema::Object(o)) = item else {
+                        panic!("merged above");
+                    };
+                    let shapes: Vec<(&str, Shape)> = o
+                        .properties
+                        .keys()
+                        .map(|k| (k.as_str(), if lists.contains(k) { Shape::AsIs } else { Shape::One }))
+                        .collect();
+                    super::schema::lenient(item, &shapes, schemas)
+                })
+                .collect();
+            let Some(RefOr::T(Schema::OneOf(one_of))) = schemas.get_mut(name) else {
+                panic!("{name} is a oneOf");
+            };
+            one_of.items = items;
+        }
         let Some(RefOr::T(Schema::Object(parameter))) = schemas.get_mut("Parameter") else {
             panic!("Parameter is an object");
         };

@@ -544,8 +544,19 @@ fn variant_names(schema: &str, tag: &str) -> Vec<String> {
         .as_array()
         .unwrap()
         .iter()
-        .map(|v| v["properties"][tag]["enum"][0].as_str().unwrap().to_string())
+        .map(|v| unboxed(&v["properties"][tag])["enum"][0].as_str().unwrap().to_string())
         .collect()
+}
+
+/// A member's schema as one value: a tagged union's members also come boxed in a one-element
+/// array (as R sends them), `oneOf: [X, {type: array, items: X, maxItems: 1}]`; this is X.
+fn unboxed(property: &Value) -> &Value {
+    let one_of = property["oneOf"].as_array().expect("every member of a tagged union is also boxed");
+    assert_eq!(one_of.len(), 2, "{property}");
+    assert_eq!(one_of[1]["type"], "array", "{property}");
+    assert_eq!(one_of[1]["maxItems"], 1, "{property}");
+    assert_eq!(one_of[1]["items"], one_of[0], "{property}");
+    &one_of[0]
 }
 
 /// A statistic with every parameter the document lists, each at a value the document allows.
@@ -556,6 +567,7 @@ fn full_statistic(variant: &Value) -> Value {
     };
     let mut out = Map::new();
     for (name, property) in variant["properties"].as_object().unwrap() {
+        let property = unboxed(property);
         let v = match (name.as_str(), &deref(document(), property)["type"]) {
             ("name", _) => property["enum"][0].clone(),
             (_, _) if deref(document(), property) == schema_of("ColumnName") => json!(["x", "y"][out.len() % 2]),

@@ -109,6 +109,58 @@ async fn a_batch_and_each_of_its_jobs_take_their_lenient_forms() {
 }
 
 #[tokio::test]
+async fn members_of_a_statistic_a_scheme_and_bins_may_come_boxed() {
+    let app = TestApp::spawn().await;
+    let data = minutes(40);
+    // jsonlite with auto_unbox off writes list(name = "quantile", p = 0.75) with every member
+    // boxed, the tag included; a list member (strata) stays a list.
+    let pairs = [
+        (
+            json!({"data": data, "statistic": {"name": "quantile", "p": 0.75}, "scheme": {"kind": "stationary_block", "mean_block_length": 4}, "seed": 2, "resamples": 300}),
+            json!({"data": data, "statistic": [{"name": ["quantile"], "p": [0.75]}], "scheme": [{"kind": ["stationary_block"], "mean_block_length": [4]}], "seed": [2], "resamples": [300]}),
+        ),
+        (
+            json!({"data": data, "statistic": {"name": "exceedance", "threshold": 12}, "scheme": {"kind": "stratified", "strata": (0..40).map(|i| i % 2).collect::<Vec<_>>()}, "seed": 3, "resamples": 300}),
+            json!({"data": data, "statistic": {"name": ["exceedance"], "threshold": [12]}, "scheme": {"kind": ["stratified"], "strata": (0..40).map(|i| i % 2).collect::<Vec<_>>()}, "seed": 3, "resamples": 300}),
+        ),
+        (
+            json!({"data": {"bins": {"edges": [0, 10, 20, 50], "counts": [30, 50, 15], "overflow": 5}}, "statistic": "median", "seed": 4, "resamples": 300}),
+            json!({"data": {"bins": {"edges": [0, 10, 20, 50], "counts": [30, 50, 15], "overflow": [5]}}, "statistic": "median", "seed": 4, "resamples": 300}),
+        ),
+    ];
+    for (canonical, boxed) in pairs {
+        let got = answer(&app, "/v1/interval", &boxed).await;
+        assert_eq!(got, answer(&app, "/v1/interval", &canonical).await, "{boxed}");
+    }
+    // A boxed member at fault is named at its element; an array of two is refused at the member.
+    let v = invalid(
+        app.post(
+            "/v1/interval",
+            &json!({"data": data, "statistic": {"name": ["quantile"], "p": [1.5]}, "scheme": {"kind": ["moving_block"], "block_length": [0]}}),
+        )
+        .await,
+        &["/statistic/p/0", "/scheme/block_length/0"],
+    );
+    assert!(message_at(&v, "/statistic/p/0").contains("1.5"), "{v}");
+    invalid(
+        app.post(
+            "/v1/interval",
+            &json!({"data": data, "statistic": {"name": "quantile", "p": [0.5, 0.9]}}),
+        )
+        .await,
+        &["/statistic/p"],
+    );
+    invalid(
+        app.post(
+            "/v1/interval",
+            &json!({"data": {"bins": {"edges": [0, 1, 2], "counts": [3, 4], "overflow": [-1]}}}),
+        )
+        .await,
+        &["/data/bins/overflow/0"],
+    );
+}
+
+#[tokio::test]
 async fn an_array_of_two_where_one_value_goes_is_refused_naming_the_field() {
     let app = TestApp::spawn().await;
     let data = minutes(10);
