@@ -267,13 +267,15 @@ pub fn interval_request_example() -> serde_json::Value {
     })
 }
 
-/// The example request of `POST /v1/batch`.
+/// The example request of `POST /v1/batch`: three tiles of a dashboard and a benchmark, the
+/// last job with a mistake (a ratio asked of one column of data) to show that it fails alone.
 pub fn batch_request_example() -> serde_json::Value {
     serde_json::json!({
         "jobs": [
-            {"kind": "interval", "data": [12.1, 9.8, 15.3, 11.0, 13.4], "seed": 1},
-            {"kind": "interval", "data": [0.8, 1.1, 0.9, 1.4, 1.0, 1.2], "statistic": {"name": "quantile", "p": 0.9}, "seed": 2},
-            {"kind": "compare", "baseline": [41.8, 42.3, 41.5, 43.0, 42.1, 41.9], "candidate": [45.1, 44.7, 45.9, 44.9, 45.4, 46.0], "tolerance": 0.02}
+            {"kind": "interval", "data": [12.1, 9.8, 15.3, 11.0, 13.4], "resamples": 1000, "seed": 1},
+            {"kind": "interval", "data": [0.8, 1.1, 0.9, 1.4, 1.0, 1.2], "statistic": {"name": "quantile", "p": 0.9}, "resamples": 1000, "seed": 2},
+            {"kind": "compare", "baseline": [41.8, 42.3, 41.5, 43.0, 42.1, 41.9], "candidate": [45.1, 44.7, 45.9, 44.9, 45.4, 46.0], "tolerance": 0.02, "resamples": 1000, "seed": 3},
+            {"kind": "interval", "data": [3.0, 4.5, 2.5, 5.0], "statistic": {"name": "ratio", "numerator": "orders", "denominator": "visits"}, "seed": 4}
         ],
         "multiplicity": "none"
     })
@@ -314,21 +316,14 @@ pub fn interval_response_example() -> serde_json::Value {
 /// Written by the contract test with `BANDSAW_WRITE_EXAMPLES=1`.
 const INTERVAL_RESPONSE_EXAMPLE: &str = include_str!("../../openapi/interval_response_example.json");
 
-/// The example response of `POST /v1/batch`.
+/// The example response of `POST /v1/batch`: what the server answers to
+/// [`batch_request_example`] (a test keeps them equal).
 pub fn batch_response_example() -> serde_json::Value {
-    let mut ok = interval_response_example();
-    ok["elapsed_ms"] = serde_json::json!(3.1);
-    let error = Problem::invalid(vec![FieldError::new(
-        "/jobs/1/levels/0",
-        "must be a confidence level strictly between 0 and 1 (0.95, not 95); got 95",
-    )]);
-    serde_json::json!({
-        "results": [{"ok": ok}, {"error": error}],
-        "multiplicity": "none",
-        "family_level": 0.95,
-        "elapsed_ms": 3.4
-    })
+    serde_json::from_str(BATCH_RESPONSE_EXAMPLE).expect("the example is JSON")
 }
+
+/// Written by the contract test with `BANDSAW_WRITE_EXAMPLES=1`.
+const BATCH_RESPONSE_EXAMPLE: &str = include_str!("../../openapi/batch_response_example.json");
 
 // ---------------------------------------------------------------------------------------------
 // Problem responses
