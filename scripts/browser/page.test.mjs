@@ -1,7 +1,8 @@
 // The page at `/` in a real browser (Debian's chromium through playwright-core): the example's
 // result equals a direct POST of the same body, a changed input gives a new interval, a
 // refused input shows the server's message beside its field, the form works from the keyboard,
-// and a screenshot is not blank.
+// a screenshot is not blank, a CSV file fills the data, and an API key is sent (and kept out of
+// the curl command) on a server that needs one.
 //
 // Usage: node page.test.mjs [BANDSAW_BINARY]   (default: target/release/bandsaw from the root)
 // BANDSAW_WRITE_SCREENSHOT=1 also writes docs/img/page.png.
@@ -31,9 +32,9 @@ function check(name, ok, detail = "") {
   console.log(`${ok ? "ok" : "not ok"} ${passed + failed} - ${name}${detail && !ok ? ` (${detail})` : ""}`);
 }
 
-function startServer() {
+function startServer(extra = []) {
   return new Promise((res, rej) => {
-    const child = spawn(binary, ["serve", "--listen", "127.0.0.1:0"], { stdio: ["ignore", "pipe", "pipe"] });
+    const child = spawn(binary, ["serve", "--listen", "127.0.0.1:0", ...extra], { stdio: ["ignore", "pipe", "pipe"] });
     let seen = "";
     const look = (chunk) => {
       seen += chunk;
@@ -131,6 +132,8 @@ async function main() {
     page.on("console", (m) => { if (m.type() === "error") consoleErrors.push(m.text()); });
     page.on("pageerror", (e) => consoleErrors.push(String(e)));
     await run(page, base);
+    await fromCsv(page);
+    await withKey(context);
     // A CSP violation or a script error shows here (a refused request's 422 is logged by the
     // browser as a failed resource, which is expected).
     const unexpected = consoleErrors.filter((e) => !/status of 422/.test(e));
@@ -240,6 +243,50 @@ async function run(page, base) {
     // The result card alone keeps the file small.
     await page.locator("#result").screenshot({ path: small });
     console.log(`# wrote ${small}`);
+  }
+}
+
+// A CSV file fills the data from the column chosen, read in the browser (RFC 4180 quoting: a
+// header with a comma, a doubled quote, a line break inside a field, CRLF line ends).
+async function fromCsv(page) {
+  const text = 'branch,"wait, minutes",note\r\nnorth,4.5,"said ""fine"""\r\nsouth,6.25,\r\neast,3.75,"two\nlines"\r\nwest,8,\r\nharbour,5.5,\r\n';
+  await page.setInputFiles("#csv-file", { name: "waits.csv", mimeType: "text/csv", buffer: Buffer.from(text) });
+  await page.waitForFunction(() => !document.getElementById("csv-columns").hidden);
+  const names = await page.$$eval("#csv-column option", (os) => os.map((o) => o.textContent));
+  check("a CSV file's header names the columns to choose from", JSON.stringify(names) === JSON.stringify(["(choose a column)", "branch", "wait, minutes", "note"]), JSON.stringify(names));
+  await page.selectOption("#csv-column", "1");
+  const req = await computeAndWait(page, () => page.click("#compute"));
+  const data = JSON.parse(req.postData()).data;
+  check("the chosen CSV column is the data sent", JSON.stringify(data) === JSON.stringify([4.5, 6.25, 3.75, 8, 5.5]), JSON.stringify(data));
+  check("and it gives an interval", (await tableRows(page)).length > 0);
+  await page.setInputFiles("#csv-file", { name: "header-only.csv", mimeType: "text/csv", buffer: Buffer.from("minutes\n") });
+  await page.waitForFunction(() => !document.getElementById("err-csv-file").hidden);
+  const said = await page.$eval("#csv-file", (el) => ({ invalid: el.getAttribute("aria-invalid"), text: document.getElementById("err-csv-file").textContent }));
+  check("a CSV file without data rows is refused beside the file field", said.invalid === "true" && /header row/.test(said.text), JSON.stringify(said));
+}
+
+// A server started with API keys: without one the page shows the refusal; with one it computes,
+// sends it as a bearer token, and its curl command names $BANDSAW_KEY instead of the key.
+async function withKey(context) {
+  const key = "tile-key-7f3a9c";
+  const { child, base } = await startServer(["--api-keys", key]);
+  try {
+    const page = await context.newPage();
+    const first = page.waitForResponse((r) => r.url().endsWith("/v1/interval"));
+    await page.goto(base + "/");
+    const refused = await first;
+    await page.waitForFunction(() => document.body.dataset.state === "problem");
+    const general = await page.textContent("#general-error");
+    check("without a key the page shows the server's 401", refused.status() === 401 && general.trim().length > 0, `${refused.status()} ${general}`);
+    await page.click("summary");
+    await page.fill("#api-key", key);
+    const req = await computeAndWait(page, () => page.click("#compute"));
+    check("with the key it computes, sending it as a bearer token", req.headers()["authorization"] === "Bearer " + key && (await tableRows(page)).length > 0);
+    const curl = await page.textContent("#curl");
+    check("the curl command names $BANDSAW_KEY, not the key", curl.includes("Authorization: Bearer $BANDSAW_KEY") && !curl.includes(key));
+    await page.close();
+  } finally {
+    child.kill();
   }
 }
 
