@@ -7,6 +7,7 @@ use quick_xml::events::{BytesDecl, BytesText, Event};
 use quick_xml::Writer;
 use serde::Deserialize;
 use serde_json::{Map, Value};
+use unicode_width::UnicodeWidthStr;
 
 use super::{Exit, Format};
 use crate::engine::job::Contrast;
@@ -306,7 +307,8 @@ fn warning_codes(c: &Compared) -> Vec<&str> {
 /// The text report for a CI log.
 pub fn text(response: &Value, names: &[&str], seed: u64, exit: Exit) -> String {
     let rows = rows(response, names);
-    let width = names.iter().map(|n| n.chars().count()).max().unwrap_or(0).max(9);
+    // Columns in a terminal: a CJK name takes two cells a character, a combining mark none.
+    let width = names.iter().map(|n| n.width()).max().unwrap_or(0).max(9);
     let mut out = format!("bandsaw check: {}, candidate against baseline\n", count(rows.len(), "benchmark"));
     if let Some(setup) = setup_line(&rows) {
         out += &format!("  {setup}\n");
@@ -329,8 +331,9 @@ fn text_row(row: &Row, width: usize) -> String {
             };
             let k = c.comparison.contrast;
             let d = &c.decision;
+            let name = padded(name, width);
             let mut s = format!(
-                "  {label:<12}  {name:<width$}  {:>8}  {} {} interval {} to {}  runs {}/{}\n",
+                "  {label:<12}  {name}  {:>8}  {} {} interval {} to {}  runs {}/{}\n",
                 change(k, c.contrast.estimate),
                 percent(d.level),
                 d.method,
@@ -349,13 +352,18 @@ fn text_row(row: &Row, width: usize) -> String {
             s
         }
         Row::Failed(name, detail, errors) => {
-            let mut s = format!("  {:<12}  {name:<width$}  {detail}\n", "REFUSED");
+            let mut s = format!("  {:<12}  {}  {detail}\n", "REFUSED", padded(name, width));
             for (pointer, message) in errors {
                 s += &format!("  {:<12}  {pointer}: {message}\n", "");
             }
             s
         }
     }
+}
+
+/// `name` followed by spaces up to `width` terminal columns.
+fn padded(name: &str, width: usize) -> String {
+    format!("{name}{}", " ".repeat(width.saturating_sub(name.width())))
 }
 
 /// Markdown's cell text: pipes and line breaks would end the cell.

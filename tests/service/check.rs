@@ -386,6 +386,36 @@ fn names_and_messages_cannot_break_the_markdown_table_or_the_xml() {
 }
 
 #[test]
+fn the_text_report_aligns_names_of_any_script_in_terminal_columns() {
+    let dir = workdir("wide");
+    let (base, change) = (runs(12, 8.0, 0.03, 0.0), runs(12, 9.0, 0.03, 0.5));
+    // A CJK name takes two terminal columns a character, a combining accent none.
+    let names = ["检索/短查询", "parse/json", "re\u{301}sume\u{301}/render"];
+    let suite = |v: &[f64]| Value::Object(names.iter().map(|n| (n.to_string(), json!(v))).collect());
+    let (b, c) = (
+        write(&dir, "b.json", &suite(&base).to_string()),
+        write(&dir, "c.json", &suite(&change).to_string()),
+    );
+    let r = check(&[&b, &c, "--seed", "1"]);
+    assert_eq!(r.status, 1, "{}", r.stderr);
+    // The change column starts at the same terminal column on every benchmark's line.
+    let starts: Vec<usize> = names
+        .iter()
+        .map(|n| {
+            let line = r
+                .stdout
+                .lines()
+                .find(|l| l.contains(n))
+                .unwrap_or_else(|| panic!("{n}: {}", r.stdout));
+            let after = line.find(n).unwrap() + n.len();
+            let gap = line[after..].len() - line[after..].trim_start().len();
+            unicode_width::UnicodeWidthStr::width(&line[..after]) + gap
+        })
+        .collect();
+    assert!(starts.windows(2).all(|w| w[0] == w[1]), "{starts:?}\n{}", r.stdout);
+}
+
+#[test]
 fn a_batch_refused_whole_is_reported_in_the_asked_format() {
     let dir = workdir("refused");
     let (b, c) = suite_files(&dir, &ALL);

@@ -248,14 +248,9 @@ async fn every_example_validates_and_every_request_example_is_accepted() {
             "compare",
             api::compare_response_example(),
         ),
-        (
-            "/v1/batch",
-            api::batch_request_example(),
-            "batch",
-            api::batch_response_example(),
-        ),
+        ("/v1/batch", api::batch_request_example(), "batch", api::batch_response_example()),
     ];
-    // Every file is written before any is compared, so that one rewriting run does for both.
+    // Every file is written before any is compared, so that one rewriting run does for all.
     let mut moved = Vec::new();
     for (route, request, name, example) in pairs {
         let answer = ok(app.post(route, &request).await);
