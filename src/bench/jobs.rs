@@ -4,10 +4,12 @@
 use serde_json::json;
 
 use crate::engine::data::Sample;
+use crate::engine::driver::shortcut_for;
 use crate::engine::interval::{Level, Method};
 use crate::engine::job::{Job, Resampled, Samples};
 use crate::engine::plan::Resamples;
 use crate::engine::scheme::{BlockLength, SchemeSpec};
+use crate::engine::statistic::shortcut::Shortcut;
 use crate::engine::statistic::StatisticSpec;
 
 /// Seed of every timed job's streams (fixed, so that runs of the same job draw the same rows).
@@ -36,13 +38,31 @@ pub enum Path {
     Weighted,
     /// The order-statistic shortcut: O(log n) binomial draws, no rows drawn.
     Order,
+    /// A share's shortcut: one binomial draw.
+    Counted,
 }
 
 impl Path {
+    /// The path the engine takes for `spec`'s job, asked of the engine's own rule
+    /// ([`shortcut_for`]) on the job's data.
+    pub fn of(spec: &Spec, normal: &[f64]) -> Path {
+        let job = spec.job(normal, 2);
+        let Samples::One(one) = &job.samples else {
+            unreachable!("a benchmark job has one sample")
+        };
+        let estimator = job.statistic.build(&one.sample).expect("the benchmark's data suit its statistic");
+        match shortcut_for(&job, one, &estimator) {
+            Some(Shortcut::Mean { .. }) => Path::Summed,
+            Some(Shortcut::Order(_)) => Path::Order,
+            Some(Shortcut::Share { .. }) => Path::Counted,
+            None => Path::Weighted,
+        }
+    }
+
     /// True when a replicate draws its n rows one by one, so that row-draws per second can be
     /// held against the generator's ceiling.
     pub fn draws_rows(self) -> bool {
-        !matches!(self, Path::Order)
+        !matches!(self, Path::Order | Path::Counted)
     }
 
     /// A few words on the path, for the report.
@@ -51,6 +71,7 @@ impl Path {
             Path::Summed => "rows summed as drawn",
             Path::Weighted => "weights, then weighted statistic",
             Path::Order => "binomial splits, O(log n)",
+            Path::Counted => "one binomial draw",
         }
     }
 }
@@ -123,15 +144,16 @@ impl Spec {
     }
 }
 
-/// The kernels timed on one thread, each with how it computes a replicate.
-pub fn kernels() -> Vec<(Spec, Path)> {
+/// The kernels timed on one thread: the mean's and the median's shortcuts at two sizes, and two
+/// statistics of the plain path (how each computes a replicate is [`Path::of`]).
+pub fn kernels() -> Vec<Spec> {
     vec![
-        (Spec::iid("mean", 10_000), Path::Summed),
-        (Spec::iid("mean", MOST_ROWS), Path::Summed),
-        (Spec::iid("variance", 10_000), Path::Weighted),
-        (Spec::iid("trimmed_mean", 10_000), Path::Weighted),
-        (Spec::iid("median", 10_000), Path::Order),
-        (Spec::iid("median", MOST_ROWS), Path::Order),
+        Spec::iid("mean", 10_000),
+        Spec::iid("mean", MOST_ROWS),
+        Spec::iid("variance", 10_000),
+        Spec::iid("trimmed_mean", 10_000),
+        Spec::iid("median", 10_000),
+        Spec::iid("median", MOST_ROWS),
     ]
 }
 
@@ -159,4 +181,28 @@ pub fn capacity() -> Vec<Spec> {
             ..Spec::iid("mean", 10_000)
         },
     ]
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The paths the report names are the engine's own choices on the benchmark's jobs.
+    #[test]
+    fn each_job_takes_the_path_the_engine_chooses() {
+        let normal: Vec<f64> = (0..MOST_ROWS).map(|i| ((i * 7919) % 1000) as f64 / 100.0 - 5.0).collect();
+        let paths: Vec<Path> = kernels().iter().map(|s| Path::of(s, &normal)).collect();
+        use Path::*;
+        assert_eq!(paths, [Summed, Summed, Weighted, Weighted, Order, Order]);
+        let share = Spec {
+            values: Values::Indicator,
+            ..Spec::iid("proportion", 1000)
+        };
+        assert_eq!(Path::of(&share, &normal), Counted);
+        let blocks = Spec {
+            mean_block: Some(50.0),
+            ..Spec::iid("mean", 1000)
+        };
+        assert_eq!(Path::of(&blocks, &normal), Weighted, "a block scheme takes no shortcut");
+    }
 }

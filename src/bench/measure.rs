@@ -35,7 +35,7 @@ pub fn everything(settings: &Settings) -> Result<Report, String> {
     let ceiling = ceiling(settings.seconds);
     let kernels = jobs::kernels()
         .iter()
-        .map(|(spec, path)| kernel(spec, *path, &data, &one, settings.seconds, &ceiling))
+        .map(|spec| kernel(spec, Path::of(spec, &data), &data, &one, settings.seconds, &ceiling))
         .collect::<Result<Vec<_>, _>>()?;
     let scaling = scaling(&jobs::scaling(), &data, settings)?;
     let all = pool(settings.threads)?;

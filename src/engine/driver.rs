@@ -14,6 +14,8 @@ use crate::engine::job::{Contrast, Include, Job, Resampled, Samples};
 use crate::engine::kernel::{contrast_se, Arm, Kernel, Pair, SeSource, Target};
 use crate::engine::plan::{self, Ended, Plan, Resamples, Source, Stop};
 use crate::engine::scheme::{SchemeError, SchemeSpec};
+use crate::engine::statistic::shortcut::Shortcut;
+use crate::engine::statistic::Estimator;
 use crate::engine::statistic::Weighted;
 use crate::engine::summary::{self, IntervalResult, Reader, Summary, SummaryInput};
 
@@ -107,6 +109,13 @@ pub struct Prepared {
     work: Work,
 }
 
+/// The shortcut that computes a part's replicates, if any: only under `iid` with drawn (not
+/// enumerated) resamples, and where the job allows shortcuts.
+pub fn shortcut_for(job: &Job, part: &Resampled, estimator: &Estimator) -> Option<Shortcut> {
+    let iid = part.scheme == SchemeSpec::Iid {} && job.resamples != Resamples::Exact;
+    (job.shortcuts && iid).then(|| estimator.shortcut()).flatten()
+}
+
 /// Bind the statistic to one sample and check that it is defined there.
 fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<Bound, RunError> {
     let data = |problems| RunError::data(which, problems);
@@ -126,8 +135,7 @@ fn arm(job: &Job, part: &Resampled, which: Which, stream: u8) -> Result<Bound, R
             part.scheme.resampler(units, order).map_err(RunError::Scheme)?
         }
     };
-    let iid = part.scheme == SchemeSpec::Iid {} && job.resamples != Resamples::Exact;
-    let shortcut = (job.shortcuts && iid).then(|| estimator.shortcut()).flatten();
+    let shortcut = shortcut_for(job, part, &estimator);
     Ok((
         Arm {
             estimator,
