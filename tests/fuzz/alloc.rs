@@ -2,7 +2,6 @@
 
 use std::alloc::{GlobalAlloc, Layout, System};
 use std::sync::atomic::{AtomicUsize, Ordering::Relaxed};
-use std::sync::Mutex;
 
 struct Counting;
 
@@ -52,17 +51,12 @@ unsafe impl GlobalAlloc for Counting {
 #[global_allocator]
 static GLOBAL: Counting = Counting;
 
-/// Tests that measure take turns: the counter is process-wide, so a measurement is only
-/// this case's while no other test of the binary runs one at the same time.
-static MEASURING: Mutex<()> = Mutex::new(());
-
 /// Run `f` and return its result with the most bytes it held at once beyond what was live when
-/// it started. Measurements take turns (`MEASURING`), so what other threads allocate meanwhile is
-/// the case's own: the rayon workers it uses. A pool thread winding down after the previous case
-/// can still free memory during this one, which can only lower the figure; callers rerun a case
-/// before they call a peak its own.
+/// it started. The binary runs one test (the self-check of `check.rs` runs first inside it), so
+/// no other test allocates meanwhile: what other threads allocate is the case's own, its rayon
+/// workers. A pool thread winding down after the previous case can still free memory during
+/// this one, which only lowers the figure.
 pub fn peak_of<R>(f: impl FnOnce() -> R) -> (R, usize) {
-    let _turn = MEASURING.lock().unwrap_or_else(|poisoned| poisoned.into_inner());
     let base = LIVE.load(Relaxed);
     PEAK.store(base, Relaxed);
     let r = f();

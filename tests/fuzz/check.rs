@@ -194,9 +194,11 @@ impl Tally {
     }
 }
 
-/// The checks themselves refuse what they guard against, so a clean run means something.
-#[test]
-fn the_checks_refuse_bad_problems() {
+/// The checks themselves refuse what they guard against, so a clean run means something. Run
+/// at the start of the fuzz run, not as a test of its own: the allocation counter is
+/// process-wide, and a second test running beside the fuzz run saw its frees (in CI it counted
+/// 1048488 of the 1048576 bytes it held).
+pub fn the_checks_refuse_bad_problems() {
     assert!(is_pointer("") && is_pointer("/data/0") && is_pointer("/a~0b~1c"));
     assert!(!is_pointer("data") && !is_pointer("/a~2") && !is_pointer("/a~"));
     let body = br#"{"data": [1, 2], "levels": [95]}"#;
@@ -209,17 +211,6 @@ fn the_checks_refuse_bad_problems() {
     );
     assert!(valid_problem(&Problem::internal("a bug"), body).is_err());
     assert!(bound(0) < bound(1 << 20), "the bound grows with the body");
-    // A pool thread's late free can lower one measurement (see `peak_of`), never three in a row
-    // unless the allocator fails to count; the fuzz run reruns a case three times likewise.
-    let held: Vec<usize> = (0..3)
-        .map(|_| peak_of(|| vec![1u8; 1 << 20].len()))
-        .map(|(v, held)| {
-            assert_eq!(v, 1 << 20);
-            held
-        })
-        .collect();
-    assert!(
-        held.iter().any(|&h| h >= 1 << 20),
-        "the allocator counts what a case holds: {held:?}"
-    );
+    let (v, held) = peak_of(|| std::hint::black_box(vec![1u8; 1 << 20]).len());
+    assert!(v == 1 << 20 && held >= 1 << 20, "the allocator counts what a case holds: {held}");
 }

@@ -94,6 +94,7 @@ fn shrink(mut tree: impl ValueTree<Value = Case>, first: String) -> (Case, Strin
 
 #[test]
 fn requests_are_answered_or_refused_with_a_valid_problem() {
+    check::the_checks_refuse_bad_problems();
     let seed = seed();
     let budget = Duration::from_secs_f64(seconds());
     let mut runner = runner(seed);
