@@ -272,18 +272,24 @@ async function withKey(context) {
   const { child, base } = await startServer(["--api-keys", key]);
   try {
     const page = await context.newPage();
+    const errors = [];
+    page.on("console", (m) => { if (m.type() === "error") errors.push(m.text()); });
+    page.on("pageerror", (e) => errors.push(String(e)));
     const first = page.waitForResponse((r) => r.url().endsWith("/v1/interval"));
     await page.goto(base + "/");
     const refused = await first;
     await page.waitForFunction(() => document.body.dataset.state === "problem");
     const general = await page.textContent("#general-error");
     check("without a key the page shows the server's 401", refused.status() === 401 && general.trim().length > 0, `${refused.status()} ${general}`);
-    await page.click("summary");
+    await page.click("summary:has-text('API key')");
     await page.fill("#api-key", key);
     const req = await computeAndWait(page, () => page.click("#compute"));
     check("with the key it computes, sending it as a bearer token", req.headers()["authorization"] === "Bearer " + key && (await tableRows(page)).length > 0);
     const curl = await page.textContent("#curl");
     check("the curl command names $BANDSAW_KEY, not the key", curl.includes("Authorization: Bearer $BANDSAW_KEY") && !curl.includes(key));
+    // The browser logs the refused request as a failed resource; nothing else may be logged.
+    const unexpected = errors.filter((e) => !/status of 401/.test(e));
+    check("no script error or policy violation on the page with a key", unexpected.length === 0, unexpected.join(" | "));
     await page.close();
   } finally {
     child.kill();

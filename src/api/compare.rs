@@ -12,8 +12,9 @@ use utoipa::openapi::schema::Schema;
 use utoipa::openapi::RefOr;
 use utoipa::ToSchema;
 
+use super::boxed::fitted;
 use super::data::{Data, DataForm};
-use super::decode::{checked, fitted, Errors};
+use super::decode::{checked, Errors};
 use super::fields::{Methods, Picture, ResampleMode, Resamples};
 use super::interval::parse_json;
 use super::job::{self, Asked, PreparedJob, Ran};

@@ -7,10 +7,12 @@ use utoipa::openapi::schema::{AdditionalProperties, ArrayBuilder, ObjectBuilder,
 use utoipa::openapi::{Ref, RefOr};
 use utoipa::{PartialSchema, ToSchema};
 
-use super::decode::{describe, unknown_fields, Decode, Errors, Shape, ONE_VALUE};
+use super::boxed::{boxed_members, with_members_unboxed, Members};
+use super::decode::{describe, unknown_fields, Decode, Errors, Shape};
 use super::lift;
 use super::problem::escape_token;
 use super::rules::Rule;
+use super::schema::lenient;
 use crate::engine::data::{DataError, Form, Place, Sample, MAX_MAGNITUDE};
 
 /// The largest count: whole numbers up to 2^53 − 1 are exact in every JSON client.
@@ -145,11 +147,20 @@ fn aggregated(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<R
 fn bins(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<Result<Sample, Vec<DataError>>> {
     unknown_fields(obj, &["bins"], at, errs);
     let at = format!("{at}/bins");
-    let Some(Value::Object(bins)) = obj.get("bins") else {
+    let Some(v @ Value::Object(_)) = obj.get("bins") else {
         errs.push(&at, "must be an object {\"edges\": [...], \"counts\": [...], \"overflow\": 0}");
         return None;
     };
-    unknown_fields(bins, &["edges", "counts", "overflow"], &at, errs);
+    // R with `auto_unbox` off sends the overflow as a one-element array.
+    let members = boxed_members("bins").expect("a histogram's members");
+    with_members_unboxed(v, &at, errs, members, |v, at, errs| {
+        bin_fields(v.as_object().expect("still an object"), members, at, errs)
+    })
+}
+
+fn bin_fields(bins: &Map<String, Value>, members: &Members, at: &str, errs: &mut Errors) -> Option<Result<Sample, Vec<DataError>>> {
+    let known: Vec<&str> = members.one.iter().chain(&members.lists).map(String::as_str).collect();
+    unknown_fields(bins, &known, at, errs);
     let edges = match bins.get("edges") {
         Some(x) => numbers(x, &format!("{at}/edges"), errs),
         None => {
@@ -159,30 +170,24 @@ fn bins(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<Result<
     };
     let counts = counts(
         bins.get("counts"),
-        &at,
+        at,
         "is required: the observations in each bin, one count per bin",
         errs,
     );
-    // One count, or (from R with `auto_unbox` off) a one-element array holding it.
     let overflow = match bins.get("overflow") {
         None => Some(0),
-        Some(Value::Array(one)) if one.len() == 1 => overflow_count(&one[0], &format!("{at}/overflow/0"), errs),
-        Some(v) => overflow_count(v, &format!("{at}/overflow"), errs),
+        Some(v) => whole(v).or_else(|| {
+            errs.push(
+                format!("{at}/overflow"),
+                format!(
+                    "must be a whole number of observations above the last edge (0 or more); got {}",
+                    describe(v)
+                ),
+            );
+            None
+        }),
     };
     Some(Sample::bins(edges?, counts?, overflow?))
-}
-
-fn overflow_count(v: &Value, at: &str, errs: &mut Errors) -> Option<u64> {
-    whole(v).or_else(|| {
-        errs.push(
-            at,
-            format!(
-                "must be a whole number of observations above the last edge (0 or more); got {}",
-                describe(v)
-            ),
-        );
-        None
-    })
 }
 
 /// Data as sent: a one-element array is a sample of one, never one value unboxed.
@@ -373,17 +378,21 @@ fn bins_schema() -> ObjectBuilder {
         )
         .property(
             "overflow",
-            OneOfBuilder::new()
-                .item(count_schema())
-                .item(ArrayBuilder::new().items(count_schema()).min_items(Some(1)).max_items(Some(1)))
+            count_schema()
                 .default(Some(0.into()))
-                .description(Some(format!(
-                    "The observations above the last edge, at unknown values. Default 0. Also accepted as {ONE_VALUE}, as R's writers send it with `auto_unbox` off."
-                ))),
+                .description(Some("The observations above the last edge, at unknown values. Default 0.")),
         )
         .required("edges")
         .required("counts")
         .additional_properties(Some(AdditionalProperties::FreeForm(false)));
+    // Its one-value members also boxed, as the decoder reads them from R.
+    let shapes: Vec<(&str, Shape)> = boxed_members("bins")
+        .expect("a histogram's members")
+        .one
+        .iter()
+        .map(|m| (m.as_str(), Shape::One))
+        .collect();
+    let bins = lenient(&RefOr::T(Schema::Object(bins.build())), &shapes, &Default::default());
     ObjectBuilder::new()
         .schema_type(Type::Object)
         .title(Some("Bins"))

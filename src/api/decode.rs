@@ -92,8 +92,7 @@ pub fn decode_field<T: Decode>(v: &Value, at: &str, errs: &mut Errors) -> Option
         (Shape::One, Value::Array(items)) => match items.as_slice() {
             [one] => T::decode(one, &format!("{at}/0"), errs),
             _ => {
-                let n = items.len();
-                errs.push(at, format!("must be {ONE_VALUE}; got an array of {n} items"));
+                refuse_many(items.len(), at, errs);
                 None
             }
         },
@@ -113,60 +112,9 @@ pub fn decode_field<T: Decode>(v: &Value, at: &str, errs: &mut Errors) -> Option
     }
 }
 
-/// A pointer made against a field's canonical form, fitted to the body as sent: an element
-/// index dropped where a list came as one item alone (`/methods/0` → `/methods`), and `/0`
-/// put in where one value came as a one-element array (`/scheme/block_length` →
-/// `/scheme/0/block_length`). Pointers into other values are left as they are.
-pub fn fit_pointer(raw: &Map<String, Value>, pointer: &str) -> String {
-    let mut tokens = pointer.splitn(4, '/').skip(1);
-    let (Some(field), Some(next)) = (tokens.next(), tokens.next()) else {
-        return pointer.to_string();
-    };
-    let rest: String = tokens.next().map(|r| format!("/{r}")).unwrap_or_default();
-    let index = next.parse::<usize>().is_ok();
-    match raw.get(field) {
-        Some(Value::Array(a)) if a.len() == 1 && !index => format!("/{field}/0/{next}{rest}"),
-        Some(v) if !v.is_array() && next == "0" && !v.is_object() => format!("/{field}{rest}"),
-        _ => pointer.to_string(),
-    }
-}
-
-/// Decode an object whose members R may have sent boxed: with `auto_unbox` off, R's writers send
-/// every member of a named list as an array, so `{"name": ["quantile"], "p": [0.9]}` stands for
-/// `{"name": "quantile", "p": 0.9}`. Each member that `lists` does not name and that came as a
-/// one-element array is read as its element; an error met inside such a member points at the
-/// element as sent (`/statistic/p/0`). Anything but an object is read as it is.
-pub fn with_members_unboxed<T>(
-    v: &Value,
-    at: &str,
-    errs: &mut Errors,
-    lists: &[String],
-    read: impl FnOnce(&Value, &str, &mut Errors) -> Option<T>,
-) -> Option<T> {
-    let Value::Object(obj) = v else {
-        return read(v, at, errs);
-    };
-    let mut unboxed = Vec::new();
-    let mut members = obj.clone();
-    for (key, value) in members.iter_mut() {
-        if let Value::Array(items) = value {
-            if items.len() == 1 && !lists.contains(key) {
-                *value = items.pop().expect("one item");
-                unboxed.push(format!("{at}/{}", escape_token(key)));
-            }
-        }
-    }
-    let before = errs.len();
-    let got = read(&Value::Object(members), at, errs);
-    for e in &mut errs.0[before..] {
-        let inside = unboxed
-            .iter()
-            .find(|m| e.pointer == **m || e.pointer.strip_prefix(m.as_str()).is_some_and(|r| r.starts_with('/')));
-        if let Some(member) = inside {
-            e.pointer = format!("{member}/0{}", &e.pointer[member.len()..]);
-        }
-    }
-    got
+/// The refusal of an array of `n` items (not one) where one value goes.
+pub(crate) fn refuse_many(n: usize, at: &str, errs: &mut Errors) {
+    errs.push(at, format!("must be {ONE_VALUE}; got an array of {n} items"));
 }
 
 /// Decode through a type's serde derive, turning serde's first error into a field error with a
@@ -461,18 +409,6 @@ macro_rules! wire_object {
             None => Some(None),
         }
     };
-}
-
-/// A problem about a request body with its pointers fitted to the body as sent (see
-/// [`fit_pointer`]): what the rules and the engine say about the canonical form, said of the
-/// lenient one.
-pub fn fitted(problem: Problem, body: &Value) -> Problem {
-    match body.as_object() {
-        Some(raw) if problem.errors.iter().any(|e| fit_pointer(raw, &e.pointer) != e.pointer) => {
-            problem.with_pointers(|p| fit_pointer(raw, p))
-        }
-        _ => problem,
-    }
 }
 
 /// Decode a request object with `decode` and hold it to the rules of `check`, every error at

@@ -10,7 +10,8 @@ use utoipa::openapi::schema::{ArrayBuilder, ObjectBuilder, OneOfBuilder, Schema,
 use utoipa::openapi::{Ref, RefOr};
 use utoipa::{PartialSchema, ToSchema};
 
-use super::decode::{describe, every_field, given, with_members_unboxed, with_serde, Decode, Errors, Shape};
+use super::boxed::{boxed_members, with_members_unboxed};
+use super::decode::{describe, every_field, given, with_serde, Decode, Errors, Shape};
 use crate::engine::interval::{Level, Method, DEFAULT_LEVEL, DEFAULT_METHODS};
 use crate::engine::job::{Include, InnerResamples};
 use crate::engine::plan::OnTimeLimit;
@@ -192,9 +193,8 @@ fn labels_ok(v: Option<&Value>, at: &str, errs: &mut Errors) -> bool {
 
 impl Decode for SchemeSpec {
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
-        static LISTS: std::sync::OnceLock<Vec<String>> = std::sync::OnceLock::new();
-        let lists = LISTS.get_or_init(|| crate::api::schema::list_members(&crate::api::schema::variants::<SchemeSpec>("kind")));
-        with_members_unboxed(v, at, errs, lists, scheme_members)
+        let members = boxed_members("scheme").expect("a scheme's members");
+        with_members_unboxed(v, at, errs, members, scheme_members)
     }
 }
 
@@ -246,9 +246,8 @@ pub fn names_alone() -> Vec<&'static str> {
 
 impl Decode for Statistic {
     fn decode(v: &Value, at: &str, errs: &mut Errors) -> Option<Self> {
-        static LISTS: std::sync::OnceLock<Vec<String>> = std::sync::OnceLock::new();
-        let lists = LISTS.get_or_init(|| crate::api::schema::list_members(&crate::api::schema::variants::<StatisticSpec>("name")));
-        with_members_unboxed(v, at, errs, lists, statistic_members)
+        let members = boxed_members("statistic").expect("a statistic's members");
+        with_members_unboxed(v, at, errs, members, statistic_members)
     }
 }
 

@@ -7,8 +7,9 @@ use std::time::Instant;
 
 use serde_json::Value;
 
+use super::boxed::fitted;
 use super::data::DataForm;
-use super::decode::{checked, fitted};
+use super::decode::checked;
 use super::fields::Picture;
 use super::job::{self, Asked, PreparedJob, Ran};
 use super::lift::{self, Lifted};

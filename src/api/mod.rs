@@ -6,6 +6,7 @@
 //! keys on `/v1/*` when keys are configured.
 
 pub mod batch;
+pub mod boxed;
 pub mod catalog;
 pub mod compare;
 pub mod data;

@@ -16,6 +16,7 @@ use utoipa::openapi::{ContentBuilder, Ref, RefOr, ResponseBuilder};
 use utoipa::{Modify, OpenApi, ToResponse, ToSchema};
 
 use super::batch::{BatchRequest, BatchResponse, JobKind};
+use super::boxed::{boxed_members, TAGGED_UNIONS};
 use super::catalog::CatalogResponse;
 use super::compare::{CompareRequest, CompareResponse};
 use super::decode::{Decode, Shape};
@@ -137,7 +138,7 @@ struct TaggedUnions;
 impl Modify for TaggedUnions {
     fn modify(&self, openapi: &mut utoipa::openapi::OpenApi) {
         let schemas = &mut openapi.components.get_or_insert_with(Default::default).schemas;
-        for (name, tag) in [("StatisticSpec", "name"), ("SchemeSpec", "kind")] {
+        for (name, tag, _) in TAGGED_UNIONS {
             let Some(RefOr::T(Schema::OneOf(one_of))) = schemas.get_mut(name) else {
                 panic!("{name} is a oneOf");
             };
@@ -146,10 +147,10 @@ impl Modify for TaggedUnions {
             }
         }
         // Each member also boxed in a one-element array, as the decoder reads it from R
-        // (`decode::with_members_unboxed`); a list member stays as it is. Done after the loop
+        // (`boxed::with_members_unboxed`); a list member stays as it is. Done after the loop
         // above, as `lenient` resolves references through the components.
-        for (name, tag) in [("StatisticSpec", "name"), ("SchemeSpec", "kind")] {
-            let lists = super::schema::list_members(&super::schema::variants_of(&schemas[name], tag));
+        for (name, _, field) in TAGGED_UNIONS {
+            let lists = &boxed_members(field).expect("a tagged union's members").lists;
             let Some(RefOr::T(Schema::OneOf(one_of))) = schemas.get(name) else {
                 panic!("{name} is a oneOf");
             };

@@ -44,34 +44,14 @@ pub fn merged(variant: &RefOr<Schema>, tag: &str) -> Object {
 
 /// The variants of a tagged union `T`, each as one object (as JSON).
 pub fn variants<T: ToSchema>(tag: &str) -> Vec<Value> {
-    variants_of(&T::schema(), tag)
-}
-
-/// The variants of a tagged union's schema, each as one object (as JSON).
-pub fn variants_of(schema: &RefOr<Schema>, tag: &str) -> Vec<Value> {
-    let RefOr::T(Schema::OneOf(one_of)) = schema else {
-        panic!("a tagged union is a oneOf");
+    let RefOr::T(Schema::OneOf(one_of)) = T::schema() else {
+        panic!("{} is a oneOf", T::name());
     };
     one_of
         .items
         .iter()
         .map(|v| serde_json::to_value(merged(v, tag)).expect("a schema serialises"))
         .collect()
-}
-
-/// The members that hold a list in any of a tagged union's variants (as [`variants`] gives
-/// them): those a boxed one-element array is left as it is for.
-pub fn list_members(variants: &[Value]) -> Vec<String> {
-    let mut lists: Vec<String> = variants
-        .iter()
-        .filter_map(|v| v["properties"].as_object())
-        .flatten()
-        .filter(|(_, p)| p["type"] == "array")
-        .map(|(name, _)| name.clone())
-        .collect();
-    lists.sort();
-    lists.dedup();
-    lists
 }
 
 /// The component schemas `T`'s schema refers to, by name (as JSON).

@@ -223,7 +223,7 @@ fn bca_without_acceleration(f: &Facts) -> Option<Warning> {
     (f.methods.contains(&Method::Bca) && f.bca_no_acceleration).then(|| {
         Warning::new(
             WarningCode::BcaWithoutAcceleration,
-            "the jackknife acceleration could not be computed (fewer than 3 observations, more than 20 000 distinct values of aggregated data for a statistic without a closed-form jackknife, a leave-out value the statistic does not define, such as a ratio whose baseline mean is zero without one observation, or leave-out values so far apart that their spread overflows), so BCa used a = 0: a bias-corrected percentile interval.",
+            "the jackknife acceleration could not be computed (fewer than 3 observations; more than 20 000 distinct values of aggregated data for a statistic without a closed-form jackknife; a leave-out value the statistic does not define, such as a ratio whose baseline mean is zero without one observation; or leave-out values so far apart that their spread overflows), so BCa used a = 0: a bias-corrected percentile interval.",
         )
     })
 }

@@ -110,7 +110,9 @@ pub struct Prepared {
 }
 
 /// The shortcut that computes a part's replicates, if any: only under `iid` with drawn (not
-/// enumerated) resamples, and where the job allows shortcuts.
+/// enumerated) resamples, and where the job allows shortcuts. Each shortcut reproduces the
+/// distribution of an `iid` resample only, and an enumeration must visit every resample itself;
+/// tests turn them off to hold them against the plain path.
 pub fn shortcut_for(job: &Job, part: &Resampled, estimator: &Estimator) -> Option<Shortcut> {
     let iid = part.scheme == SchemeSpec::Iid {} && job.resamples != Resamples::Exact;
     (job.shortcuts && iid).then(|| estimator.shortcut()).flatten()

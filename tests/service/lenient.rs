@@ -132,7 +132,8 @@ async fn members_of_a_statistic_a_scheme_and_bins_may_come_boxed() {
         let got = answer(&app, "/v1/interval", &boxed).await;
         assert_eq!(got, answer(&app, "/v1/interval", &canonical).await, "{boxed}");
     }
-    // A boxed member at fault is named at its element; an array of two is refused at the member.
+    // A boxed member at fault is named at its element, whether the decoder or the engine finds
+    // the fault; an array of two (or none) is refused at the member, as a request field is.
     let v = invalid(
         app.post(
             "/v1/interval",
@@ -142,14 +143,41 @@ async fn members_of_a_statistic_a_scheme_and_bins_may_come_boxed() {
         &["/statistic/p/0", "/scheme/block_length/0"],
     );
     assert!(message_at(&v, "/statistic/p/0").contains("1.5"), "{v}");
+    for (statistic, at) in [
+        (json!({"name": ["nope"]}), "/statistic/name/0"),
+        (json!([{"name": "quantile", "p": [[0.9]]}]), "/statistic/0/p/0"),
+        (json!({"name": "mean", "bogus": [1]}), "/statistic/bogus"),
+        (json!({"name": "mean", "a/b": [1]}), "/statistic/a~1b"),
+    ] {
+        invalid(
+            app.post("/v1/interval", &json!({"data": data, "statistic": statistic})).await,
+            &[at],
+        );
+    }
+    for p in [json!([0.5, 0.9]), json!([])] {
+        let v = invalid(
+            app.post("/v1/interval", &json!({"data": data, "statistic": {"name": "quantile", "p": p}}))
+                .await,
+            &["/statistic/p"],
+        );
+        assert!(message_at(&v, "/statistic/p").contains("one value (or a one-element array)"), "{v}");
+    }
+    // Faults the engine finds after decoding: a column the data lack, an overflow with the mean.
+    let columns = json!({"columns": {"orders": [3, 4, 5, 6], "visits": [30, 41, 52, 58]}});
     invalid(
         app.post(
             "/v1/interval",
-            &json!({"data": data, "statistic": {"name": "quantile", "p": [0.5, 0.9]}}),
+            &json!({"data": columns, "statistic": {"name": ["ratio"], "numerator": ["orders"], "denominator": ["sessions"]}}),
         )
         .await,
-        &["/statistic/p"],
+        &["/statistic/denominator/0"],
     );
+    let binned = json!({"bins": {"edges": [0, 1, 2], "counts": [3, 4], "overflow": [2]}});
+    let v = invalid(
+        app.post("/v1/interval", &json!({"data": binned, "statistic": "mean"})).await,
+        &["/data/bins/overflow/0"],
+    );
+    assert!(message_at(&v, "/data/bins/overflow/0").contains("above the last edge"), "{v}");
     invalid(
         app.post(
             "/v1/interval",
