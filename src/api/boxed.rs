@@ -29,8 +29,13 @@ impl Members {
     pub fn of_union<T: ToSchema>(tag: &str) -> Members {
         let components = components::<T>();
         let resolve = |p: &Value| -> Value {
-            let name = p["$ref"].as_str().and_then(|r| r.rsplit('/').next());
-            name.and_then(|n| components.get(n)).cloned().unwrap_or_else(|| p.clone())
+            match p["$ref"].as_str() {
+                Some(r) => components
+                    .get(r.rsplit('/').next().unwrap_or(r))
+                    .cloned()
+                    .unwrap_or_else(|| panic!("{r} is a component")),
+                None => p.clone(),
+            }
         };
         let is_list = |p: &Value| {
             let t = &resolve(p)["type"];
@@ -45,6 +50,12 @@ impl Members {
                 }
             }
         }
+        // A name that is a list in one variant and one value in another could not be read.
+        assert!(
+            out.one.iter().all(|m| !out.lists.contains(m)),
+            "{} has a member that is a list in one variant and one value in another",
+            T::name()
+        );
         out
     }
 }
@@ -107,8 +118,10 @@ pub fn fit_pointer(raw: &Map<String, Value>, pointer: &str) -> String {
             (owner, member) = (member, *token);
         }
     }
+    // Only a pointer that ends at the member itself (not at an index inside it).
+    let ends_at_member = tokens.last() == Some(&member);
     let boxed = boxed_members(owner).is_some_and(|m| m.one.iter().any(|o| escape_token(o) == member));
-    if boxed && matches!(here, Some(Value::Array(a)) if a.len() == 1) {
+    if ends_at_member && boxed && matches!(here, Some(Value::Array(a)) if a.len() == 1) {
         out.push_str("/0");
     }
     out
@@ -227,6 +240,8 @@ mod tests {
             ("/scheme/strata", "/scheme/strata"),
             ("/data/bins/overflow", "/data/bins/overflow/0"),
             ("/seed", "/seed"),
+            ("/statistic/0/numerator/0", "/statistic/0/numerator/0"),
+            ("/data/bins/overflow/0", "/data/bins/overflow/0"),
             ("", ""),
         ] {
             assert_eq!(fit_pointer(raw, made), sent, "{made}");

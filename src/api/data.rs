@@ -159,7 +159,7 @@ fn bins(obj: &Map<String, Value>, at: &str, errs: &mut Errors) -> Option<Result<
 }
 
 fn bin_fields(bins: &Map<String, Value>, members: &Members, at: &str, errs: &mut Errors) -> Option<Result<Sample, Vec<DataError>>> {
-    let known: Vec<&str> = members.one.iter().chain(&members.lists).map(String::as_str).collect();
+    let known: Vec<&str> = members.lists.iter().chain(&members.one).map(String::as_str).collect();
     unknown_fields(bins, &known, at, errs);
     let edges = match bins.get("edges") {
         Some(x) => numbers(x, &format!("{at}/edges"), errs),
