@@ -35,6 +35,12 @@ pub trait ColumnStatistic: Send + Sync {
     /// where the statistic is undefined on that resample; the driver counts and drops those.
     fn evaluate(&self, c: &ColumnLayout, w: &[f64], scratch: &mut Scratch) -> f64;
 
+    /// The value on the sample itself: [`ColumnStatistic::evaluate`] at the base weights, or a
+    /// quicker way to the same number.
+    fn estimate(&self, c: &ColumnLayout, scratch: &mut Scratch) -> f64 {
+        self.evaluate(c, &c.base, scratch)
+    }
+
     /// Closed-form leave-one-out values, one per unit (leaving out one observation of that
     /// unit), in O(units) or O(units log units). `None` sends the jackknife to the generic path.
     fn jackknife_closed(&self, _c: &ColumnLayout) -> Option<Vec<f64>> {
@@ -409,7 +415,11 @@ impl Estimator {
     /// The statistic on the sample itself.
     pub fn estimate(&self) -> f64 {
         let units = self.units();
-        self.evaluate(units.base, &mut Scratch::with_units(units.base.len()))
+        let scratch = &mut Scratch::with_units(units.base.len());
+        match self {
+            Estimator::Column { data, stat } => stat.estimate(data, scratch),
+            _ => self.evaluate(units.base, scratch),
+        }
     }
 
     /// True when the units are rows (raw rows of a column, or the rows of named columns), not
