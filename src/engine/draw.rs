@@ -261,11 +261,10 @@ fn at(x: &[f64], i: usize) -> f64 {
     x.get(i).copied().unwrap_or(0.0)
 }
 
-/// Sums of `x − centre` (and of its square when `SQUARES`) over drawn rows, one accumulator a
-/// lane.
+/// Sums of the values (and of their squares when `SQUARES`) over drawn rows, one accumulator
+/// a lane.
 struct Sums<'a, const SQUARES: bool> {
     x: &'a [f64],
-    centre: f64,
     s: [f64; LANES],
     q: [f64; LANES],
 }
@@ -273,7 +272,7 @@ struct Sums<'a, const SQUARES: bool> {
 impl<const SQUARES: bool> Take for Sums<'_, SQUARES> {
     #[inline]
     fn take(&mut self, row: usize, weight: f64, lane: usize) {
-        let xi = at(self.x, row) - self.centre;
+        let xi = at(self.x, row);
         let v = weight * xi;
         self.s[lane] += v;
         if SQUARES {
@@ -306,38 +305,18 @@ fn weight(ok: u32) -> f64 {
     f64::from_bits(u64::from(std::hint::black_box(ok)) * 1f64.to_bits())
 }
 
-/// The sum of `x − centre` over an `iid` resample's rows (drawn by [`rows`]).
-pub fn resampled_sum(rng: &mut ChaCha8Rng, x: &[f64], centre: f64) -> f64 {
+/// The sum of `x` over an `iid` resample's rows (drawn by [`rows`]); the caller centres the
+/// values first, so that the sum does not cancel.
+pub fn resampled_sum(rng: &mut ChaCha8Rng, x: &[f64]) -> f64 {
     let zero = [0.0; LANES];
-    rows(
-        rng,
-        x.len(),
-        Sums::<false> {
-            x,
-            centre,
-            s: zero,
-            q: zero,
-        },
-    )
-    .totals()
-    .0
+    rows(rng, x.len(), Sums::<false> { x, s: zero, q: zero }).totals().0
 }
 
-/// The sums of `x − centre` and of its square over an `iid` resample's rows, for a mean and its
-/// standard error.
-pub fn resampled_sums(rng: &mut ChaCha8Rng, x: &[f64], centre: f64) -> (f64, f64) {
+/// The sums of `x` and of its square over an `iid` resample's rows, for a mean and its standard
+/// error (of centred values, as for [`resampled_sum`]).
+pub fn resampled_sums(rng: &mut ChaCha8Rng, x: &[f64]) -> (f64, f64) {
     let zero = [0.0; LANES];
-    rows(
-        rng,
-        x.len(),
-        Sums::<true> {
-            x,
-            centre,
-            s: zero,
-            q: zero,
-        },
-    )
-    .totals()
+    rows(rng, x.len(), Sums::<true> { x, s: zero, q: zero }).totals()
 }
 
 #[cfg(test)]

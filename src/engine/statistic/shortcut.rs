@@ -5,7 +5,8 @@
 //! statistic on it; only the cost class changes:
 //!
 //! - the mean of raw rows: the rows are drawn chunk by chunk ([`draw::rows`]) and their values
-//!   summed as they come, so a replicate reads n values and writes nothing;
+//!   summed as they come (centred once per job), so a replicate reads n values and writes
+//!   nothing;
 //! - a share (proportion, exceedance): the resampled number of successes is one Binomial(n, p̂)
 //!   draw, O(1) per replicate;
 //! - order statistics (median, quantile, interquartile range): the number of draws that land on
@@ -14,6 +15,8 @@
 //!   replicate, for raw rows and for aggregated data (whose units carry counts) alike.
 //!
 //! The tests in `tests/statistics/shortcuts.rs` hold each against the plain path.
+
+use std::sync::Arc;
 
 use rand_chacha::ChaCha8Rng;
 
@@ -35,7 +38,9 @@ const BINOMIAL_COST: f64 = 50.0;
 pub enum Shortcut {
     /// The mean of raw rows, summed from values centred on a typical value as they are read (so
     /// that the sum of squares for the standard error does not cancel), without a copy.
-    Mean { centre: f64 },
+    /// The rows' values come already centred (`centred[j]` = x_j − centre, computed once rather
+    /// than once a draw; the same numbers the draws would compute).
+    Mean { centre: f64, centred: Arc<[f64]> },
     /// A share of successes (`successes` of `total`): one binomial draw.
     Share { successes: f64, total: f64 },
     /// Hyndman–Fan definition 7 quantiles at `p`, read from the resample's order statistics; a
@@ -63,8 +68,12 @@ impl Shortcut {
     /// the sum of squares for the standard error loses at most a bit to the subtraction of the
     /// squared mean.
     pub fn mean(c: &ColumnLayout) -> Option<Shortcut> {
-        c.raw.then(|| Shortcut::Mean {
-            centre: c.x.get(c.x.len() / 2).copied().unwrap_or(0.0),
+        c.raw.then(|| {
+            let centre = c.x.get(c.x.len() / 2).copied().unwrap_or(0.0);
+            Shortcut::Mean {
+                centre,
+                centred: c.x.iter().map(|x| x - centre).collect(),
+            }
         })
     }
 
@@ -108,12 +117,12 @@ impl Shortcut {
     /// One replicate's value, and its analytic standard error when `se` asks (NaN otherwise).
     pub fn replicate(&self, c: &ColumnLayout, rng: &mut ChaCha8Rng, se: bool) -> (f64, f64) {
         match self {
-            Shortcut::Mean { centre } => {
+            Shortcut::Mean { centre, centred } => {
                 let n = c.x.len() as f64;
                 if !se {
-                    return (centre + draw::resampled_sum(rng, &c.x, *centre) / n, f64::NAN);
+                    return (centre + draw::resampled_sum(rng, centred) / n, f64::NAN);
                 }
-                let (s, q) = draw::resampled_sums(rng, &c.x, *centre);
+                let (s, q) = draw::resampled_sums(rng, centred);
                 let d = s / n;
                 // The plug-in variance of the resample, σ̂²/n as the mean's analytic SE.
                 let var = (q / n - d * d).max(0.0);
