@@ -178,21 +178,33 @@ pub fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u6
             10 => packed::<T, 10>(rng, start, count, take),
             11 => packed::<T, 11>(rng, start, count, take),
             12 => packed::<T, 12>(rng, start, count, take),
+            13 => halves_of_chunk::<T, 13>(rng, start, count, take),
+            14 => halves_of_chunk::<T, 14>(rng, start, count, take),
             _ => {
-                let (take, left) = pairs::<T, false>(rng, start, range, 0, count, take);
+                let (take, left) = pairs::<T, false, 0>(rng, start, range, 0, count, take);
                 last(rng, start, range, 0, left, take)
             }
         };
     }
-    let (take, left) = pairs::<T, true>(rng, start, range, threshold, count, take);
+    let (take, left) = pairs::<T, true, 0>(rng, start, range, threshold, count, take);
     last(rng, start, range, threshold, left, take)
+}
+
+/// The rows of a chunk of 2^K rows (K = 13 or 14, the largest chunks) from half-words, as
+/// [`pairs`] and [`last`] draw them, handed over by their place in the chunk
+/// ([`Take::take_in_chunk`]).
+#[inline]
+fn halves_of_chunk<T: Take, const K: u32>(rng: &mut ChaCha8Rng, start: usize, count: u64, mut take: T) -> T {
+    take.enter_chunk::<K>(start);
+    let (take, left) = pairs::<T, false, K>(rng, start, 1 << K, 0, count, take);
+    last(rng, start, 1 << K, 0, left, take)
 }
 
 /// The draws of [`within`] while two rows or more are wanted: both halves of two words while
 /// four or more are, then of one word, with no branch on the rejection and four lanes for a
 /// consumer's sums. Returns the consumer and the rows still wanted (0 or 1).
 #[inline]
-fn pairs<T: Take, const REJECTS: bool>(
+fn pairs<T: Take, const REJECTS: bool, const K: u32>(
     rng: &mut ChaCha8Rng,
     start: usize,
     range: u32,
@@ -201,10 +213,15 @@ fn pairs<T: Take, const REJECTS: bool>(
     mut take: T,
 ) -> (T, u64) {
     let mut left = count;
+    // K > 0: a chunk of 2^K rows entered by the caller, whose rows go by their place in it.
     let candidate = |take: &mut T, half: u32, lane: usize, left: &mut u64| {
         let m = half * range;
         let ok = if REJECTS { accepted(m, threshold) } else { 1 };
-        take.take(start + (m >> 16) as usize, if REJECTS { weight(ok) } else { 1.0 }, lane);
+        if K > 0 {
+            take.take_in_chunk::<K>(start, (m >> 16) as usize, lane);
+        } else {
+            take.take(start + (m >> 16) as usize, if REJECTS { weight(ok) } else { 1.0 }, lane);
+        }
         *left -= u64::from(ok);
     };
     while left >= 4 {
