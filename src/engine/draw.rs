@@ -132,7 +132,8 @@ fn chunk_len(rest: usize) -> usize {
 pub trait Take {
     fn take(&mut self, row: usize, weight: f64, lane: usize);
 
-    /// A chunk of 2^K rows from `start` begins; its rows come next by [`Take::take_in_chunk`].
+    /// A chunk of 2^K rows from `start` begins; its rows come next by [`Take::take_in_chunk`]
+    /// (but for a last odd row of a chunk drawn from half-words, which [`Take::take`] gets).
     #[inline]
     fn enter_chunk<const K: u32>(&mut self, _start: usize) {}
 
@@ -191,8 +192,8 @@ pub fn within<T: Take>(rng: &mut ChaCha8Rng, start: usize, len: usize, count: u6
 }
 
 /// The rows of a chunk of 2^K rows (K = 13 or 14, the largest chunks) from half-words, as
-/// [`pairs`] and [`last`] draw them, handed over by their place in the chunk
-/// ([`Take::take_in_chunk`]).
+/// [`pairs`] and [`last`] draw them: those of [`pairs`] handed over by their place in the chunk
+/// ([`Take::take_in_chunk`]), a last odd one by [`Take::take`].
 #[inline]
 fn halves_of_chunk<T: Take, const K: u32>(rng: &mut ChaCha8Rng, start: usize, count: u64, mut take: T) -> T {
     take.enter_chunk::<K>(start);
@@ -212,8 +213,10 @@ fn pairs<T: Take, const REJECTS: bool, const K: u32>(
     count: u64,
     mut take: T,
 ) -> (T, u64) {
+    // K > 0: a chunk of 2^K rows entered by the caller, whose rows go by their place in it,
+    // each of weight 1: a power-of-two range rejects nothing.
+    const { assert!(!(REJECTS && K > 0), "a chunk of 2^K rows rejects nothing") };
     let mut left = count;
-    // K > 0: a chunk of 2^K rows entered by the caller, whose rows go by their place in it.
     let candidate = |take: &mut T, half: u32, lane: usize, left: &mut u64| {
         let m = half * range;
         let ok = if REJECTS { accepted(m, threshold) } else { 1 };
@@ -381,6 +384,27 @@ pub fn resampled_sums(rng: &mut ChaCha8Rng, x: &[f64]) -> (f64, f64) {
 mod tests {
     use super::*;
     use crate::engine::rng::replicate_stream;
+
+    /// The mean's sums, which read power-of-two chunks by place, add the same values in the
+    /// same lanes and order as a consumer that reads every row through `take`: bit for bit.
+    #[test]
+    fn sums_by_place_in_a_chunk_equal_sums_by_row() {
+        for n in [256, 512, 1000, 2000, 8192, 10_000, CHUNK_ROWS, 3 * CHUNK_ROWS + 123] {
+            let x: Vec<f64> = (0..n).map(|i| ((i * 7919) % 1013) as f64 * 0.37 - 150.0).collect();
+            for i in 0..5 {
+                let (s, q) = resampled_sums(&mut replicate_stream(11, i), &x);
+                let mut lanes = ([0.0; LANES], [0.0; LANES]);
+                let _ = rows(&mut replicate_stream(11, i), n, |row: usize, weight: f64, lane: usize| {
+                    let v = weight * x[row];
+                    lanes.0[lane] += v;
+                    lanes.1[lane] += v * x[row];
+                });
+                let add = |a: [f64; LANES]| (a[0] + a[1]) + (a[2] + a[3]);
+                assert_eq!(s.to_bits(), add(lanes.0).to_bits(), "n {n} resample {i}");
+                assert_eq!(q.to_bits(), add(lanes.1).to_bits(), "n {n} resample {i}");
+            }
+        }
+    }
 
     /// Every row of a chunked resample is counted once, and each chunk receives its share: over
     /// many resamples the count of every row averages 1.

@@ -36,10 +36,9 @@ const BINOMIAL_COST: f64 = 50.0;
 /// How a statistic's replicate is computed without weights.
 #[derive(Debug, Clone)]
 pub enum Shortcut {
-    /// The mean of raw rows, summed from values centred on a typical value as they are read (so
-    /// that the sum of squares for the standard error does not cancel), without a copy.
-    /// The rows' values come already centred (`centred[j]` = x_j − centre, computed once rather
-    /// than once a draw; the same numbers the draws would compute).
+    /// The mean of raw rows, summed from a copy of the values centred once per job on a typical
+    /// value (`centred[j]` = x_j − centre), so that the sum of squares for the standard error
+    /// does not cancel; the same numbers as centring each value as it is drawn.
     Mean { centre: f64, centred: Arc<[f64]> },
     /// A share of successes (`successes` of `total`): one binomial draw.
     Share { successes: f64, total: f64 },
