@@ -307,7 +307,8 @@ fn warning_codes(c: &Compared) -> Vec<&str> {
 /// The text report for a CI log.
 pub fn text(response: &Value, names: &[&str], seed: u64, exit: Exit) -> String {
     let rows = rows(response, names);
-    // Columns in a terminal: a CJK name takes two cells a character, a combining mark none.
+    // Columns in a terminal (Unicode UAX #11, East Asian Width, as the unicode-width crate
+    // reads it): a CJK name takes two cells a character, a combining mark none.
     let width = names.iter().map(|n| n.width()).max().unwrap_or(0).max(9);
     let mut out = format!("bandsaw check: {}, candidate against baseline\n", count(rows.len(), "benchmark"));
     if let Some(setup) = setup_line(&rows) {

@@ -336,7 +336,7 @@ impl<const SQUARES: bool> Take for Sums<'_, SQUARES> {
     }
 
     /// `place & mask` is below the chunk's length, a constant here, so the read is unchecked
-    /// in the compiled loop (measured: the 200-series batch 12 % faster than through `at`).
+    /// in the compiled loop (measured: the 200-series batch 15 % faster than through `at`).
     #[inline]
     fn take_in_chunk<const K: u32>(&mut self, _start: usize, place: usize, lane: usize) {
         let xi = self.chunk[place & ((1 << K) - 1)];

@@ -143,10 +143,14 @@ pub(crate) fn weighted_quantile(x: &[f64], w: &[f64], total: f64, p: f64) -> f64
 /// A definition 7 quantile of raw rows at their base weights (each 1), read straight from the
 /// sorted values in O(1): what [`weighted_quantile`] finds by a pass over every weight.
 fn raw_quantile(x: &[f64], p: f64) -> f64 {
-    let h = (x.len() as f64 - 1.0) * p;
+    // No rows (refused before a statistic is built): undefined, as the weighted pass has it.
+    let Some(last) = x.len().checked_sub(1) else {
+        return f64::NAN;
+    };
+    let h = last as f64 * p;
     let t = h.floor();
     let i = t as usize;
-    interpolate(x[i], x[(i + 1).min(x.len() - 1)], h - t)
+    interpolate(x[i], x[(i + 1).min(last)], h - t)
 }
 
 /// Leave-one-out definition 7 quantiles in O(units): deleting one copy of unit j from the
@@ -345,6 +349,7 @@ mod tests {
             }
             assert_eq!(Iqr.estimate(&d, s).to_bits(), Iqr.evaluate(&d, &d.base, s).to_bits(), "n {n}");
         }
+        assert!(Quantile { p: 0.5 }.estimate(&prep(&[]), &mut Scratch::default()).is_nan());
     }
 
     #[test]
